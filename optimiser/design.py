@@ -1,0 +1,303 @@
+"""The design file: one concrete supply, read from YAML and validated with clear messages.
+
+Every problem is reported as ``file:line:col: dotted.path: message``; the loader collects all of
+them and raises one :class:`DesignError`. PyYAML's silent last-one-wins on duplicate keys is
+refused here.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated, Literal, Optional, Union
+
+import yaml
+from pydantic import Field, ValidationError, field_validator, model_validator
+
+from .schema import (
+    Capacitance,
+    Current,
+    Frequency,
+    Inductance,
+    Perveance,
+    Resistance,
+    Strict,
+    Voltage,
+)
+
+__all__ = [
+    "DesignError",
+    "Mains",
+    "EquivalentTransformer",
+    "DiodeModel",
+    "ValveModel",
+    "Rectifier",
+    "Load",
+    "Feed",
+    "Node",
+    "Design",
+    "load_design",
+    "read_yaml",
+    "validate",
+]
+
+TOPOLOGIES = ("bridge", "centre-tap", "hybrid-bridge")
+
+
+class DesignError(ValueError):
+    """One or more problems in a design or spec file; ``problems`` holds one line per problem."""
+
+    def __init__(self, problems):
+        self.problems = list(problems)
+        super().__init__("\n".join(self.problems))
+
+
+Positive = Field(gt=0)
+NonNegative = Field(ge=0)
+
+
+class Mains(Strict):
+    """Nominal mains supply."""
+
+    voltage: Annotated[Voltage, Positive]
+    frequency: Annotated[Frequency, Positive]
+
+
+class EquivalentTransformer(Strict):
+    """The transformer as the rectifier sees it: an open-circuit EMF behind R and L."""
+
+    secondary_voltage: Annotated[Voltage, Positive]
+    secondary_resistance: Annotated[Resistance, NonNegative]
+    leakage_inductance: Annotated[Inductance, NonNegative] = 0.0
+
+
+class DiodeModel(Strict):
+    """SPICE-style silicon diode parameters."""
+
+    saturation_current: Annotated[Current, Positive]
+    emission_coefficient: float = Field(gt=0, le=4)
+    series_resistance: Annotated[Resistance, NonNegative] = 0.0
+
+
+class ValveModel(Strict):
+    """Vacuum diode per plate by the Child-Langmuir law."""
+
+    perveance: Annotated[Perveance, Positive]
+
+
+class Rectifier(Strict):
+    topology: Literal["bridge", "centre-tap", "hybrid-bridge"]
+    diode: Optional[Union[DiodeModel, str]] = None
+    valve: Optional[Union[ValveModel, str]] = None
+
+
+class Load(Strict):
+    """A node's load: constant current, a resistance, or idle and full-power currents."""
+
+    current: Optional[Annotated[Current, NonNegative]] = None
+    resistance: Optional[Annotated[Resistance, Positive]] = None
+    idle_current: Optional[Annotated[Current, NonNegative]] = None
+    full_power_current: Optional[Annotated[Current, NonNegative]] = None
+
+    @model_validator(mode="after")
+    def _one_form(self):
+        forms = [self.current is not None, self.resistance is not None,
+                 self.idle_current is not None or self.full_power_current is not None]
+        if sum(forms) != 1:
+            raise ValueError("give exactly one of: current, resistance, or idle_current with "
+                             "full_power_current")
+        if forms[2] and (self.idle_current is None or self.full_power_current is None):
+            raise ValueError("idle_current and full_power_current go together")
+        return self
+
+
+class Feed(Strict):
+    """What joins a node to the one before it: a resistor, or a choke (L with its resistance)."""
+
+    resistance: Annotated[Resistance, NonNegative] = 0.0
+    inductance: Annotated[Inductance, NonNegative] = 0.0
+
+    @model_validator(mode="after")
+    def _not_a_short(self):
+        if self.resistance <= 0 and self.inductance <= 0:
+            raise ValueError("a feed needs resistance > 0 or inductance > 0")
+        return self
+
+
+class Node(Strict):
+    name: str = Field(min_length=1, pattern=r"^[A-Za-z0-9_+-][A-Za-z0-9_ +-]*$")
+    capacitance: Annotated[Capacitance, Positive]
+    esr: Annotated[Resistance, NonNegative] = 0.0
+    feed: Optional[Feed] = None
+    load: Optional[Load] = None
+
+
+class Design(Strict):
+    """One concrete HV supply."""
+
+    mains: Mains
+    transformer: EquivalentTransformer
+    rectifier: Rectifier
+    nodes: list[Node] = Field(min_length=1)
+
+    @field_validator("nodes")
+    @classmethod
+    def _unique_names(cls, nodes):
+        seen = set()
+        for node in nodes:
+            if node.name in seen:
+                raise ValueError(f"node name '{node.name}' is used twice")
+            seen.add(node.name)
+        return nodes
+
+    @model_validator(mode="after")
+    def _consistent(self):
+        problems = []
+        for k, node in enumerate(self.nodes[1:], start=1):
+            if node.feed is None:
+                problems.append(f"nodes.{k}.feed: node '{node.name}' needs a feed from the node "
+                                "before it (resistance and/or inductance)")
+        if self.rectifier.topology == "hybrid-bridge" and self.rectifier.valve is None:
+            problems.append("rectifier.valve: a hybrid-bridge needs a valve (a part name or "
+                            "{perveance: ...})")
+        first = self.nodes[0].feed
+        if first is not None and first.inductance > 0 and self.transformer.leakage_inductance > 0:
+            problems.append("transformer.leakage_inductance: must be 0 H with a choke-input first "
+                            "node (commutation overlap is not modelled); fold it into the choke")
+        if problems:
+            raise ValueError("; ".join(problems))
+        return self
+
+    @property
+    def valve_path(self) -> bool:
+        """Whether a valve conducts in each path."""
+        r = self.rectifier
+        return r.topology == "hybrid-bridge" or (r.topology == "centre-tap" and r.valve is not None)
+
+
+# --------------------------------------------------------------------------------------------
+# YAML with positions
+
+
+class _UniqueKeyLoader(yaml.SafeLoader):
+    pass
+
+
+def read_yaml(path):
+    """Read a YAML file; return (data, node tree). Raises DesignError on unreadable YAML."""
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except OSError as exc:
+        raise DesignError([f"{path}: cannot read: {exc.strerror}"]) from None
+    try:
+        node = yaml.compose(text, Loader=_UniqueKeyLoader)
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        where = f"{path}:{mark.line + 1}:{mark.column + 1}" if mark else str(path)
+        problem = getattr(exc, "problem", None) or str(exc)
+        raise DesignError([f"{where}: not readable as YAML: {problem}"]) from None
+    if node is None:
+        raise DesignError([f"{path}: the file is empty"])
+    problems = list(_duplicate_keys(node, path))
+    if problems:
+        raise DesignError(problems)
+    data = yaml.load(text, Loader=_UniqueKeyLoader)
+    if not isinstance(data, dict):
+        raise DesignError([f"{path}:1:1: the top level must be a mapping of sections"])
+    return data, node
+
+
+def _duplicate_keys(node, path, prefix=""):
+    if isinstance(node, yaml.MappingNode):
+        seen = {}
+        for key, value in node.value:
+            name = key.value
+            here = f"{prefix}.{name}" if prefix else name
+            if name in seen:
+                yield (f"{path}:{key.start_mark.line + 1}:{key.start_mark.column + 1}: {here}: "
+                       f"duplicate key (first at line {seen[name] + 1})")
+            else:
+                seen[name] = key.start_mark.line
+            yield from _duplicate_keys(value, path, here)
+    elif isinstance(node, yaml.SequenceNode):
+        for i, item in enumerate(node.value):
+            yield from _duplicate_keys(item, path, f"{prefix}.{i}")
+
+
+def _locate(node, loc):
+    """Walk a YAML node tree along a pydantic error location; return (node, dotted path)."""
+    parts = []
+    for item in loc:
+        if isinstance(node, yaml.MappingNode) and isinstance(item, str):
+            for key, value in node.value:
+                if key.value == item:
+                    node = value
+                    parts.append(item)
+                    break
+            else:
+                if item[:1].isupper() or item in ("str", "function-after"):
+                    continue  # a union member's tag, not a key
+                parts.append(item)
+        elif isinstance(node, yaml.SequenceNode) and isinstance(item, int):
+            if item < len(node.value):
+                node = node.value[item]
+            parts.append(str(item))
+        elif isinstance(item, int):
+            parts.append(str(item))
+        elif node is None or not (item[:1].isupper() or item in ("str", "function-after")):
+            parts.append(str(item))
+    return node, ".".join(parts)
+
+
+def _message(error) -> str:
+    msg = error["msg"]
+    for prefix in ("Value error, ", "Assertion failed, "):
+        if msg.startswith(prefix):
+            msg = msg[len(prefix):]
+    if error["type"] == "extra_forbidden":
+        msg = "unknown key (check the spelling; see the example designs in specs/)"
+    elif error["type"] == "missing":
+        msg = "required key is missing"
+    return msg
+
+
+def validation_problems(exc: ValidationError, node=None, source="design") -> list[str]:
+    """One readable line per pydantic error, with file:line:col when a node tree is given."""
+    errors = exc.errors()
+    # for "part name or parameter block" unions, drop the "should be a string" noise when the
+    # block itself has errors
+    block_errors = {tuple(e["loc"][:-2]) for e in errors if len(e["loc"]) >= 2}
+    lines = []
+    for e in errors:
+        loc = tuple(e["loc"])
+        if e["type"] == "string_type" and loc[-1] == "str" and any(
+                other[: len(loc) - 1] == loc[:-1] and other != loc for other in
+                (tuple(x["loc"]) for x in errors)):
+            continue
+        target, dotted = _locate(node, loc) if node is not None else (None, _locate(None, loc)[1])
+        where = source
+        if target is not None and hasattr(target, "start_mark"):
+            where = f"{source}:{target.start_mark.line + 1}:{target.start_mark.column + 1}"
+        text = f"{where}: {dotted}: {_message(e)}" if dotted else f"{where}: {_message(e)}"
+        if text not in lines:
+            lines.append(text)
+    del block_errors
+    return lines
+
+
+def validate(model_type, data, node=None, source="design"):
+    """Validate a dict against a file model; raise DesignError with every problem."""
+    try:
+        return model_type.model_validate(data)
+    except ValidationError as exc:
+        raise DesignError(validation_problems(exc, node, source)) from None
+
+
+def load_design(source) -> Design:
+    """Read and validate a design: a path to a YAML file, a dict, or a :class:`Design`."""
+    if isinstance(source, Design):
+        return source
+    if isinstance(source, dict):
+        return validate(Design, source)
+    data, node = read_yaml(source)
+    return validate(Design, data, node, str(source))
