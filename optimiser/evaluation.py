@@ -153,8 +153,10 @@ class Batch:
                                            "perveance")}
         topology = []
         for b, d in enumerate(designs):
-            if cls.structure_of(d) != structure or d.mains.frequency != frequency:
-                raise ValueError("a batch holds designs of one ladder shape and mains frequency")
+            if (cls.structure_of(d) != structure or d.mains.frequency != frequency
+                    or d.valve_path != designs[0].valve_path):
+                raise ValueError("a batch holds designs of one ladder shape, mains frequency and "
+                                 "kind of rectifier path")
             t = d.transformer
             peak[b] = np.sqrt(2.0) * t.secondary_voltage * scale[b]
             r_w[b] = t.secondary_resistance
@@ -357,7 +359,8 @@ NODE_FIGURES = ("dc_voltage", "ripple_pp", "ripple_rms", "capacitor_rms_current"
 def _groups(designs):
     groups = {}
     for i, d in enumerate(designs):
-        key = (Batch.structure_of(d), d.mains.frequency)
+        # the path solver takes one iteration variable per batch: silicon-only or with a valve
+        key = (Batch.structure_of(d), d.mains.frequency, d.valve_path)
         groups.setdefault(key, []).append(i)
     return groups
 

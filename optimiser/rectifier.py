@@ -184,7 +184,10 @@ def solve_path(available, coupling, elements: PathElements, state_guess, *, tol=
     e = elements
     qpos = np.where(conducting, q, 1e-30)
     nvt = e.emission_coefficient * THERMAL_VOLTAGE
-    if np.any(e.valve_count > 0):
+    with_valve = bool(np.any(e.valve_count > 0))
+    if with_valve and not np.all(e.valve_count > 0):
+        raise ValueError("solve_path takes paths of one kind: all with a valve plate or none")
+    if with_valve:
         k = e.perveance
         n_si = e.silicon_count
         z_hi = np.cbrt(qpos / k)
@@ -217,7 +220,7 @@ def solve_path(available, coupling, elements: PathElements, state_guess, *, tol=
         z = z_new
         if np.all(done | ~conducting):
             break
-    if np.any(e.valve_count > 0):
+    if with_valve:
         i = e.perveance * z ** 3
     else:
         i = e.saturation_current * np.expm1(z / nvt)
