@@ -222,7 +222,7 @@ def _diode_model(diode):
         return diode
     from . import parts
 
-    return parts.diode_model(diode or DEFAULT_DIODE)
+    return parts.find_part("diode", diode or DEFAULT_DIODE)
 
 
 def _valve_perveance(valve) -> float:
@@ -232,7 +232,7 @@ def _valve_perveance(valve) -> float:
         return valve.perveance
     from . import parts
 
-    return parts.valve_perveance(valve)
+    return parts.find_part("valve", valve).perveance
 
 
 def initial_states(batch: Batch, model: ladder.StateSpace) -> np.ndarray:
