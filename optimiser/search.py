@@ -1,0 +1,341 @@
+"""The search machinery: pymoo's NSGA-II over a float encoding, with no physics in it.
+
+A *definition* is any object with
+
+- ``variables``: a sequence of :class:`Variable` (float columns; integer columns hold indices),
+- ``objective_names`` and ``constraint_names``: sequences of str,
+- ``evaluate(X) -> (F, G)``: objectives (B, n_obj) to minimise and constraints (B, n_constr),
+  feasible where every ``G <= 0``, for a whole population at once.
+
+:func:`run` searches it with a fixed generation budget (in three objectives the whole population
+soon becomes non-dominated, so tolerance-based stopping would never stop), reproducibly from a
+seed, optionally splitting each population across worker processes, with an optional progress bar.
+"""
+
+from __future__ import annotations
+
+import sys
+import time
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import dataclass, field
+
+import numpy as np
+from pymoo.core.problem import Problem
+from pymoo.core.repair import Repair
+
+__all__ = ["Variable", "IntegerRepair", "VectorProblem", "SearchResult", "run", "non_dominated",
+           "random_population", "knee"]
+
+
+@dataclass(frozen=True)
+class Variable:
+    """One column of the encoding.
+
+    Attributes
+    ----------
+    name : str
+    lower, upper : float
+        Bounds; for an integer column the first and last index.
+    integer : bool
+        Whether the column holds an index (rounded by :class:`IntegerRepair`).
+    """
+
+    name: str
+    lower: float
+    upper: float
+    integer: bool = False
+
+    def __post_init__(self):
+        if not (np.isfinite(self.lower) and np.isfinite(self.upper)) or self.upper < self.lower:
+            raise ValueError(f"variable {self.name}: need finite lower <= upper, got "
+                             f"[{self.lower}, {self.upper}]")
+
+
+def _bounds(variables):
+    """Bounds pymoo samples in: an integer column spans +/- half a step beyond its end indices,
+    so that rounding gives every index the same share."""
+    lower = np.array([v.lower for v in variables], float)
+    upper = np.array([v.upper for v in variables], float)
+    integer = np.array([v.integer for v in variables], bool)
+    half = np.where(integer, 0.5 - 1e-6, 0.0)
+    xl, xu = lower - half, upper + half
+    xu = np.where(xu > xl, xu, xl + 1e-12)  # pymoo needs xl < xu even for a fixed column
+    return lower, upper, integer, xl, xu
+
+
+def _repair_matrix(X, lower, upper, integer):
+    X = np.array(X, float, copy=True)
+    X[:, integer] = np.clip(np.rint(X[:, integer]), lower[integer], upper[integer])
+    return X
+
+
+def random_population(variables, count, seed):
+    """A uniformly random population (integer columns rounded), e.g. to compare against. [-]"""
+    lower, upper, integer, xl, xu = _bounds(variables)
+    rng = np.random.default_rng(seed)
+    X = xl + rng.random((count, len(variables))) * (xu - xl)
+    return _repair_matrix(X, lower, upper, integer)
+
+
+def non_dominated(F, feasible=None) -> np.ndarray:
+    """Indices of the non-dominated rows of F (minimisation), among the feasible ones if given."""
+    F = np.asarray(F, float)
+    index = np.arange(len(F)) if feasible is None else np.flatnonzero(feasible)
+    if index.size == 0:
+        return index
+    sub = F[index]
+    le = np.all(sub[:, None, :] <= sub[None, :, :], axis=2)
+    lt = np.any(sub[:, None, :] < sub[None, :, :], axis=2)
+    dominated = np.any(le & lt, axis=0)
+    # of exact duplicates keep the first
+    _, first = np.unique(sub, axis=0, return_index=True)
+    keep = np.zeros(len(sub), bool)
+    keep[first] = True
+    return index[~dominated & keep]
+
+
+class IntegerRepair(Repair):
+    """Round the integer columns (and only those) to the nearest index inside their bounds."""
+
+    def __init__(self, variables):
+        super().__init__()
+        self.lower, self.upper, self.integer, _, _ = _bounds(variables)
+
+    def _do(self, problem, X, **kwargs):
+        return _repair_matrix(X, self.lower, self.upper, self.integer)
+
+
+_WORKER_DEFINITION = None
+
+
+def _worker_init(definition):
+    global _WORKER_DEFINITION
+    _WORKER_DEFINITION = definition
+
+
+def _worker_evaluate(X):
+    F, G = _WORKER_DEFINITION.evaluate(X)
+    return np.asarray(F, float), np.asarray(G, float)
+
+
+class VectorProblem(Problem):
+    """A pymoo problem evaluating the whole population in one call of ``definition.evaluate``.
+
+    Keeps the time spent in the definition (the physics), the number of evaluations, and the
+    least value each constraint reached over the whole run (to say which could never be met).
+    """
+
+    def __init__(self, definition, pool=None, workers=1):
+        self.definition = definition
+        self.variables = list(definition.variables)
+        self.lower, self.upper, self.integer, xl, xu = _bounds(self.variables)
+        self.n_constraints = len(definition.constraint_names)
+        super().__init__(n_var=len(self.variables), n_obj=len(definition.objective_names),
+                         n_ieq_constr=self.n_constraints, xl=xl, xu=xu, elementwise=False)
+        self.pool = pool
+        self.workers = workers
+        self.physics_time = 0.0
+        self.evaluations = 0
+        self.best_constraints = np.full(self.n_constraints, np.inf)
+
+    def __getstate__(self):
+        state = self.__dict__.copy()
+        state["pool"] = None  # pymoo deep-copies the problem into its result
+        return state
+
+    def _evaluate(self, x, out, *args, **kwargs):
+        start = time.perf_counter()
+        if self.pool is not None and len(x) >= 2 * self.workers:
+            chunks = np.array_split(x, self.workers)
+            results = list(self.pool.map(_worker_evaluate, chunks))
+            F = np.vstack([r[0] for r in results])
+            G = np.vstack([r[1] for r in results])
+        else:
+            F, G = self.definition.evaluate(x)
+        self.physics_time += time.perf_counter() - start
+        self.evaluations += len(x)
+        F = np.asarray(F, float).reshape(len(x), self.n_obj)
+        out["F"] = F
+        if self.n_constraints:
+            G = np.asarray(G, float).reshape(len(x), self.n_constraints)
+            out["G"] = G
+            self.best_constraints = np.minimum(self.best_constraints, G.min(axis=0))
+
+
+@dataclass(frozen=True)
+class SearchResult:
+    """The final population of a search and its bookkeeping.
+
+    Attributes
+    ----------
+    X, F, G : ndarray
+        Final population: variables, objectives, constraints.
+    feasible : ndarray of bool
+    front : ndarray of int
+        Rows of the final population that are feasible and non-dominated.
+    best_constraints : ndarray
+        Least value each constraint reached over every evaluation of the run.
+    evaluations : int
+    generations : int
+    physics_time : float
+        Wall time inside ``definition.evaluate`` (and the workers). [s]
+    total_time : float
+        Wall time of the whole search. [s]
+    history : list of dict
+        Per generation: ``generation``, ``feasible`` count, and the best of each objective among
+        the feasible designs of the population (NaN while none is feasible).
+    """
+
+    X: np.ndarray
+    F: np.ndarray
+    G: np.ndarray
+    feasible: np.ndarray
+    front: np.ndarray
+    best_constraints: np.ndarray
+    evaluations: int
+    generations: int
+    physics_time: float
+    total_time: float
+    history: list = field(default_factory=list)
+
+    @property
+    def overhead_time(self) -> float:
+        """Wall time of pymoo's own bookkeeping (total less physics). [s]"""
+        return self.total_time - self.physics_time
+
+
+def knee(F):
+    """The knee of a front: the point farthest inside the plane through its single-objective
+    extremes, measured in objectives normalised to the front's range.
+
+    Parameters
+    ----------
+    F : array_like (P, m)
+        Objectives of the front's points (minimised).
+
+    Returns
+    -------
+    int
+        Row of the knee.
+
+    Notes
+    -----
+    The plane through the m anchor points (each the best in one objective) is the convex hull of
+    individual minima of normal-boundary intersection; the point farthest from it towards the
+    ideal point is where a step towards any one objective costs the most in the others. When the
+    anchors do not span a plane (e.g. one point is best in two objectives) the plane
+    ``sum(f) = 1`` through the unit anchors is used instead.
+
+    References
+    ----------
+    .. [1] I. Das, "On characterizing the 'knee' of the Pareto curve based on normal-boundary
+       intersection," Structural Optimization, vol. 18, 1999.
+    .. [2] J. Branke, K. Deb, H. Dierolf, M. Osswald, "Finding knees in multi-objective
+       optimization," PPSN VIII, LNCS 3242, 2004.
+    """
+    F = np.asarray(F, float)
+    if len(F) <= 2:
+        return 0
+    lo, hi = F.min(axis=0), F.max(axis=0)
+    span = np.where(hi > lo, hi - lo, 1.0)
+    f = (F - lo) / span
+    anchors = f[np.argmin(F, axis=0)]
+    normal = np.ones(F.shape[1])
+    if np.linalg.matrix_rank(anchors) == F.shape[1]:
+        candidate = np.linalg.solve(anchors, np.ones(F.shape[1]))
+        if np.all(candidate > 0):
+            normal = candidate
+    distance = (1.0 - f @ normal) / np.linalg.norm(normal)
+    return int(np.argmax(distance))
+
+
+def _make_callback(objective_names, history, bar):
+    from pymoo.core.callback import Callback
+
+    class _Watch(Callback):
+        def notify(self, algorithm):
+            pop = algorithm.pop
+            F = pop.get("F")
+            feasible = pop.get("feasible").ravel()
+            best = {name: (float(np.min(F[feasible, i])) if feasible.any() else float("nan"))
+                    for i, name in enumerate(objective_names)}
+            entry = {"generation": int(algorithm.n_gen), "feasible": int(feasible.sum()), **best}
+            if not feasible.any():
+                entry["least_violation"] = float(np.min(pop.get("CV")))
+            history.append(entry)
+            if bar is not None:
+                post = {"feasible": entry["feasible"]}
+                if feasible.any():
+                    post.update({k: f"{v:.4g}" for k, v in best.items()})
+                else:
+                    post["least violation"] = f"{entry['least_violation']:.3g}"
+                bar.set_postfix(post, refresh=False)
+                bar.update(1)
+
+    return _Watch()
+
+
+def run(definition, population=100, generations=40, seed=1, workers=1, progress=False,
+        initial=None) -> SearchResult:
+    """Search a definition with NSGA-II for a fixed number of generations.
+
+    Parameters
+    ----------
+    definition : object
+        See the module docstring.
+    population : int
+        Designs per generation. [-]
+    generations : int
+        Generations, the initial population counted as the first. [-]
+    seed : int
+        Seed of the one random generator every operator draws from: same seed, same front.
+    workers : int
+        Processes to split each population across (1: evaluate in this process).
+    progress : bool
+        Show a progress bar on stderr (the caller decides; e.g. only on a terminal).
+    initial : ndarray, optional
+        Starting population (rows of the encoding); random if not given.
+
+    Returns
+    -------
+    SearchResult
+    """
+    from pymoo.algorithms.moo.nsga2 import NSGA2
+    from pymoo.optimize import minimize
+
+    start = time.perf_counter()
+    pool = ProcessPoolExecutor(max_workers=workers, initializer=_worker_init,
+                               initargs=(definition,)) if workers > 1 else None
+    bar = None
+    try:
+        problem = VectorProblem(definition, pool=pool, workers=workers)
+        repair = IntegerRepair(problem.variables)
+        kwargs = {}
+        if initial is not None:
+            kwargs["sampling"] = repair._do(problem, np.asarray(initial, float))
+        algorithm = NSGA2(pop_size=population, repair=repair, eliminate_duplicates=True,
+                          return_least_infeasible=True, **kwargs)
+        history = []
+        if progress:
+            from tqdm import tqdm
+
+            bar = tqdm(total=generations, desc="search", unit="gen", file=sys.stderr,
+                       leave=False, dynamic_ncols=True)
+        callback = _make_callback(list(definition.objective_names), history, bar)
+        res = minimize(problem, algorithm, ("n_gen", generations), seed=seed, callback=callback,
+                       verbose=False, copy_algorithm=False)
+    finally:
+        if bar is not None:
+            bar.close()
+        if pool is not None:
+            pool.shutdown()
+    pop = res.pop
+    X, F = pop.get("X"), pop.get("F")
+    n_constr = len(definition.constraint_names)
+    G = pop.get("G") if n_constr else np.zeros((len(X), 0))
+    feasible = np.all(G <= 0, axis=1) if n_constr else np.ones(len(X), bool)
+    return SearchResult(X=X, F=F, G=G, feasible=feasible, front=non_dominated(F, feasible),
+                        best_constraints=problem.best_constraints.copy(),
+                        evaluations=problem.evaluations, generations=generations,
+                        physics_time=problem.physics_time,
+                        total_time=time.perf_counter() - start, history=history)

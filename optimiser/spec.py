@@ -1,0 +1,520 @@
+"""The spec file: what a builder knows before anything is designed, and what may be searched.
+
+A spec is YAML with a unit string for every physical value, validated like the design file
+(:mod:`optimiser.design`): every problem is one line ``file:line:col: dotted.path: message``,
+collected into one :class:`~optimiser.design.DesignError`.
+
+Sections::
+
+    name: wren-combo                 # optional; the results folder name (default: file stem)
+    mains: {voltage: 230 V, frequency: 50 Hz, tolerance: 10 %}
+    ambient: 35 degC                 # air around the parts
+    nodes:                           # the B+ ladder in order; the first is the reservoir
+      - name: plates
+        dc_voltage: 345 V            # target ...
+        window: 15 V                 # ... plus or minus this
+        at: idle                     # idle | full-power: where the window applies
+        idle_current: 78 mA
+        full_power_current: 112 mA
+        ripple: 6 V                  # largest ripple p-p, or `hum: 70 dB` (RMS below the DC)
+    sag: {node: plates, target: 8 %, tolerance: 3 %}
+    heaters: [{name: output valves, voltage: 6.3 V, current: 2.5 A, centre_tap: true}]
+    auxiliary: [{name: bias, voltage: 50 V, current: 5 mA}]
+    choices:                         # what may be searched
+      secondary_voltage: {min: 260 V, max: 380 V, step: 1 V}
+      winding_resistance: {min: 20 ohm, max: 300 ohm}
+      rectifiers: [{topology: centre-tap, valve: 5AR4}, {topology: bridge, diode: 1N4007}]
+      reservoir: {series: generic-105C-snap-in, min: 22 uF, max: 220 uF}
+      filter: {series: generic-105C-radial, min: 10 uF, max: 100 uF}
+      feeds:
+        screens: {resistance: {min: 220 ohm, max: 4.7 kohm}, chokes: [generic-5H-100mA]}
+    transformer: {max_flux_density: 1.3 T}
+    costs: {parts: {5AR4: 22}}
+    search: {population: 120, generations: 40, seed: 1}
+
+Everything is held as SI floats after validation (fractions as fractions: 8 % is 0.08).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from pathlib import Path
+from typing import Annotated, Literal, Optional
+
+from pydantic import BeforeValidator, Field, field_validator, model_validator
+
+from . import parts
+from .design import DesignError, _locate, read_yaml, validate
+from .schema import (
+    Capacitance,
+    Current,
+    FluxDensity,
+    Fraction,
+    Frequency,
+    Resistance,
+    Strict,
+    Temperature,
+    Time,
+    Voltage,
+)
+
+__all__ = [
+    "Spec",
+    "NodeSpec",
+    "SagSpec",
+    "Winding",
+    "RectifierOption",
+    "CapacitorChoice",
+    "FeedOptions",
+    "Choices",
+    "SearchSettings",
+    "load_spec",
+    "spec_name",
+]
+
+Positive = Field(gt=0)
+NonNegative = Field(ge=0)
+
+_DB = re.compile(r"^\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*dB\s*$")
+
+
+def _decibels(value):
+    """Read ``"70 dB"`` into the float 70.0; refuse bare numbers and other units."""
+    if isinstance(value, bool) or not isinstance(value, str):
+        raise ValueError(f"write a level in decibels such as '70 dB', got {value!r}")
+    m = _DB.match(value)
+    if not m:
+        raise ValueError(f"'{value}' is not a level in decibels (write e.g. '70 dB')")
+    level = float(m.group(1))
+    if not math.isfinite(level):
+        raise ValueError(f"'{value}' is not a finite number")
+    return level
+
+
+Decibels = Annotated[float, BeforeValidator(_decibels)]
+
+
+class MainsSpec(Strict):
+    """The mains the amplifier runs from."""
+
+    voltage: Annotated[Voltage, Positive]
+    frequency: Annotated[Frequency, Positive]
+    tolerance: Annotated[Fraction, Field(ge=0, lt=0.5)] = 0.10
+
+
+class NodeSpec(Strict):
+    """One B+ node: what it must deliver, and how clean."""
+
+    name: str = Field(min_length=1, pattern=r"^[A-Za-z0-9_+-][A-Za-z0-9_ +-]*$")
+    dc_voltage: Annotated[Voltage, Positive]
+    window: Annotated[Voltage, Positive]
+    at: Literal["idle", "full-power"] = "idle"
+    idle_current: Annotated[Current, NonNegative]
+    full_power_current: Annotated[Current, NonNegative]
+    ripple: Optional[Annotated[Voltage, Positive]] = None
+    hum: Optional[Annotated[Decibels, Positive]] = None
+
+    @model_validator(mode="after")
+    def _consistent(self):
+        if self.window >= self.dc_voltage:
+            raise ValueError("window must be smaller than dc_voltage (it is the +/- band around it)")
+        if self.ripple is not None and self.hum is not None:
+            raise ValueError("give the ripple limit once: either ripple (V p-p) or hum (dB below DC)")
+        if self.idle_current <= 0 and self.full_power_current <= 0:
+            raise ValueError("idle_current and full_power_current cannot both be 0 A")
+        return self
+
+    def ripple_pp_limit(self, dc_voltage):
+        """Largest ripple p-p allowed at a DC voltage; inf when no limit is set. [V]
+
+        A hum level is an RMS ripple below the DC, ``20·log10(V_dc / V_rms)``; a sine ripple's
+        p-p is ``2·sqrt(2)`` times its RMS (the ripple is taken as sinusoidal for this limit).
+        """
+        if self.ripple is not None:
+            return self.ripple + 0.0 * dc_voltage
+        if self.hum is not None:
+            return 2.0 * math.sqrt(2.0) * dc_voltage * 10.0 ** (-self.hum / 20.0)
+        return math.inf + 0.0 * dc_voltage
+
+
+class TimeWindow(Strict):
+    min: Optional[Annotated[Time, NonNegative]] = None
+    max: Optional[Annotated[Time, Positive]] = None
+
+    @model_validator(mode="after")
+    def _ordered(self):
+        if self.min is None and self.max is None:
+            raise ValueError("give min, max or both")
+        if self.min is not None and self.max is not None and self.max <= self.min:
+            raise ValueError("max must be above min")
+        return self
+
+
+class SagSpec(Strict):
+    """The drop from idle to full power the player wants, at one node."""
+
+    node: Optional[str] = None
+    target: Annotated[Fraction, Field(ge=0, lt=1)]
+    tolerance: Annotated[Fraction, Field(gt=0, lt=1)]
+    attack: Optional[TimeWindow] = None
+    recovery: Optional[TimeWindow] = None
+
+
+class Winding(Strict):
+    """A heater or auxiliary winding on the same transformer."""
+
+    name: str = Field(min_length=1)
+    voltage: Annotated[Voltage, Positive]
+    current: Annotated[Current, Positive]
+    centre_tap: bool = False
+
+
+def _known(kind, name):
+    parts.find_part(kind, name)  # raises PartNotFound (a LookupError) naming close matches
+    return name
+
+
+class RectifierOption(Strict):
+    """One rectifier the search may pick: a topology with its parts (names from the catalogue)."""
+
+    topology: Literal["bridge", "centre-tap", "hybrid-bridge"]
+    diode: Optional[str] = None
+    valve: Optional[str] = None
+
+    @field_validator("diode")
+    @classmethod
+    def _diode_known(cls, name):
+        if name is not None:
+            try:
+                _known("diode", name)
+            except LookupError as exc:
+                raise ValueError(str(exc.args[0])) from None
+        return name
+
+    @field_validator("valve")
+    @classmethod
+    def _valve_known(cls, name):
+        if name is not None:
+            try:
+                valve = parts.find_part("valve", name)
+                valve.perveance  # noqa: B018 - a valve without a drop point cannot be simulated
+            except LookupError as exc:
+                raise ValueError(str(exc.args[0])) from None
+        return name
+
+    @model_validator(mode="after")
+    def _parts_fit(self):
+        t = self.topology
+        if t == "bridge" and (self.valve is not None or self.diode is None):
+            raise ValueError("a bridge takes four silicon diodes: give diode (a part name) and no valve")
+        if t == "hybrid-bridge" and (self.valve is None or self.diode is None):
+            raise ValueError("a hybrid-bridge needs a valve (the positive pair) and a diode "
+                             "(the negative pair)")
+        if t == "centre-tap" and (self.valve is None) == (self.diode is None):
+            raise ValueError("a centre-tap rectifier takes either a valve or a diode, not both")
+        return self
+
+    @property
+    def label(self) -> str:
+        """Short readable name, e.g. ``"centre-tap 5AR4"``."""
+        parts_named = " + ".join(p for p in (self.valve, self.diode) if p)
+        return f"{self.topology} {parts_named}"
+
+    @property
+    def has_valve(self) -> bool:
+        return self.valve is not None
+
+
+class Range(Strict):
+    min: float
+    max: float
+
+
+class VoltageRange(Strict):
+    min: Annotated[Voltage, Positive]
+    max: Annotated[Voltage, Positive]
+    step: Annotated[Voltage, Positive] = 1.0
+
+    @model_validator(mode="after")
+    def _ordered(self):
+        if self.max <= self.min:
+            raise ValueError("max must be above min")
+        return self
+
+
+class ResistanceRange(Strict):
+    min: Annotated[Resistance, Positive]
+    max: Annotated[Resistance, Positive]
+
+    @model_validator(mode="after")
+    def _ordered(self):
+        if self.max <= self.min:
+            raise ValueError("max must be above min")
+        return self
+
+
+class CapacitorChoice(Strict):
+    """A capacitor series and the range of values the search may use from it."""
+
+    series: str
+    min: Annotated[Capacitance, Positive]
+    max: Annotated[Capacitance, Positive]
+    voltage_ratings: Optional[list[Annotated[Voltage, Positive]]] = None
+
+    @field_validator("series")
+    @classmethod
+    def _series_known(cls, name):
+        try:
+            _known("capacitor", name)
+        except LookupError as exc:
+            raise ValueError(str(exc.args[0])) from None
+        return name
+
+    @model_validator(mode="after")
+    def _check(self):
+        if self.max < self.min:
+            raise ValueError("max must be at least min")
+        series = parts.find_part("capacitor", self.series)
+        made = [r.rated for r in series.voltage_ratings]
+        if self.voltage_ratings is not None:
+            missing = [v for v in self.voltage_ratings
+                       if not any(math.isclose(v, m, rel_tol=1e-3) for m in made)]
+            if missing:
+                raise ValueError(f"series {self.series} is not made at "
+                                 + ", ".join(f"{v:g} V" for v in missing)
+                                 + "; made: " + ", ".join(f"{m:g} V" for m in made))
+        if not self.values():
+            raise ValueError(f"series {self.series} makes no value between the given min and max "
+                             "at the allowed voltage ratings")
+        return self
+
+    def ratings(self):
+        """The allowed voltage ratings of the series, ascending (VoltageRating models)."""
+        series = parts.find_part("capacitor", self.series)
+        out = [r for r in series.voltage_ratings if self.voltage_ratings is None or any(
+            math.isclose(r.rated, v, rel_tol=1e-3) for v in self.voltage_ratings)]
+        return sorted(out, key=lambda r: r.rated)
+
+    def values(self) -> list[float]:
+        """Every value the series makes at some allowed rating inside [min, max], ascending. [F]"""
+        series = parts.find_part("capacitor", self.series)
+        found = set()
+        for r in self.ratings():
+            for c in series.values(r.rated):
+                if self.min * (1 - 1e-9) <= c <= self.max * (1 + 1e-9):
+                    found.add(float(c))
+        return sorted(found)
+
+
+class ResistorOptions(Strict):
+    min: Annotated[Resistance, Positive]
+    max: Annotated[Resistance, Positive]
+    series: Literal["E3", "E6", "E12", "E24"] = "E12"
+
+    @model_validator(mode="after")
+    def _check(self):
+        if self.max < self.min:
+            raise ValueError("max must be at least min")
+        if not self.values():
+            raise ValueError(f"no {self.series} value lies between min and max")
+        return self
+
+    def values(self) -> list[float]:
+        """Preferred values inside [min, max], ascending. [ohm]"""
+        lo, hi = math.floor(math.log10(self.min)), math.ceil(math.log10(self.max))
+        vals = parts.e_series(self.series, range(lo, hi + 1))
+        return [float(v) for v in vals if self.min * (1 - 1e-9) <= v <= self.max * (1 + 1e-9)]
+
+
+class FeedOptions(Strict):
+    """What may join a node to the one before it: a dropping resistor and/or named chokes."""
+
+    resistance: Optional[ResistorOptions] = None
+    chokes: list[str] = []
+
+    @field_validator("chokes")
+    @classmethod
+    def _chokes_known(cls, names):
+        for name in names:
+            try:
+                _known("choke", name)
+            except LookupError as exc:
+                raise ValueError(str(exc.args[0])) from None
+        return names
+
+    @model_validator(mode="after")
+    def _something(self):
+        if self.resistance is None and not self.chokes:
+            raise ValueError("give a resistance range, chokes, or both")
+        return self
+
+
+class Choices(Strict):
+    """What the search may vary."""
+
+    secondary_voltage: VoltageRange
+    winding_resistance: ResistanceRange
+    rectifiers: list[RectifierOption] = Field(min_length=1)
+    reservoir: CapacitorChoice
+    filter: Optional[CapacitorChoice] = None
+    feeds: dict[str, FeedOptions] = {}
+    resistor_ratings: Optional[list[str]] = None
+
+    @field_validator("resistor_ratings")
+    @classmethod
+    def _ratings_known(cls, names):
+        for name in names or ():
+            try:
+                _known("resistor", name)
+            except LookupError as exc:
+                raise ValueError(str(exc.args[0])) from None
+        return names
+
+
+class TransformerSpec(Strict):
+    """Settings of the transformer estimate."""
+
+    max_flux_density: Annotated[FluxDensity, Field(gt=0, le=2.0)] = 1.3
+
+
+class Margins(Strict):
+    """How hard parts may be run."""
+
+    resistor_power_factor: float = Field(default=2.0, ge=1.0)
+
+
+class TransformerPrices(Strict):
+    base: Optional[float] = Field(default=None, ge=0)
+    labour_per_winding: Optional[float] = Field(default=None, ge=0)
+    price_per_kg: Optional[float] = Field(default=None, ge=0)
+
+
+class Costs(Strict):
+    """Overrides of the bundled price model (currency-neutral cost units)."""
+
+    parts: dict[str, Annotated[float, Field(ge=0)]] = {}
+    transformer: TransformerPrices = TransformerPrices()
+
+
+class Resolution(Strict):
+    """Differences in the objectives too small to tell designs apart on the reported front."""
+
+    cost: float = Field(default=0.1, ge=0)
+    regulation: Annotated[Fraction, Field(ge=0)] = 0.001
+    rectifier_stress: float = Field(default=0.005, ge=0)
+
+
+class SearchSettings(Strict):
+    """The search's budget and reproducibility.
+
+    ``steps_per_half_cycle`` is the steady-state solver's resolution during the search; the final
+    population is re-checked at the full resolution before the front is reported.
+    """
+
+    population: int = Field(default=120, ge=8, le=5000)
+    generations: int = Field(default=40, ge=1, le=10000)
+    seed: int = Field(default=1, ge=0)
+    workers: int = Field(default=1, ge=1, le=64)
+    steps_per_half_cycle: int = Field(default=64, ge=16, le=1024)
+    resolution: Resolution = Resolution()
+
+
+class Spec(Strict):
+    """A whole spec file."""
+
+    name: Optional[str] = Field(default=None, pattern=r"^[A-Za-z0-9_.+-]+$")
+    mains: MainsSpec
+    ambient: Temperature = 35.0
+    nodes: list[NodeSpec] = Field(min_length=1)
+    sag: Optional[SagSpec] = None
+    heaters: list[Winding] = []
+    auxiliary: list[Winding] = []
+    choices: Choices
+    transformer: TransformerSpec = TransformerSpec()
+    margins: Margins = Margins()
+    costs: Costs = Costs()
+    search: SearchSettings = SearchSettings()
+
+    @field_validator("nodes")
+    @classmethod
+    def _unique(cls, nodes):
+        seen = set()
+        for node in nodes:
+            if node.name in seen:
+                raise ValueError(f"node name '{node.name}' is used twice")
+            seen.add(node.name)
+        return nodes
+
+    @property
+    def sag_node(self) -> int:
+        """Index of the node whose sag is the regulation objective."""
+        if self.sag is None or self.sag.node is None:
+            return 0
+        return [n.name for n in self.nodes].index(self.sag.node)
+
+
+def _cross_problems(spec: Spec):
+    """Checks that span sections: (pydantic-style loc, message) pairs."""
+    names = [n.name for n in spec.nodes]
+    out = []
+    for key in spec.choices.feeds:
+        if key not in names:
+            out.append((("choices", "feeds", key), f"no node is named '{key}'; nodes: "
+                        + ", ".join(names)))
+        elif key == names[0]:
+            out.append((("choices", "feeds", key), f"'{key}' is the reservoir (first node); "
+                        "it is fed straight from the rectifier (capacitor input)"))
+    for k, name in enumerate(names[1:], start=1):
+        if name not in spec.choices.feeds:
+            out.append((("choices", "feeds"), f"node '{name}' needs feed options (a resistance "
+                        "range and/or chokes) to join it to the node before it"))
+    if len(names) > 1 and spec.choices.filter is None:
+        out.append((("choices",), "filter: required key is missing (capacitors for the nodes "
+                    "after the reservoir)"))
+    if spec.sag is not None and spec.sag.node is not None and spec.sag.node not in names:
+        out.append((("sag", "node"), f"no node is named '{spec.sag.node}'; nodes: "
+                    + ", ".join(names)))
+    if spec.sag is not None and (spec.sag.attack is not None or spec.sag.recovery is not None):
+        out.append((("sag",), "attack and recovery windows need the dynamic sag model, which "
+                    "this build does not have yet; remove them"))
+    return out
+
+
+def _spec_from(data, node=None, source="spec") -> Spec:
+    spec = validate(Spec, data, node, source)
+    problems = []
+    for loc, message in _cross_problems(spec):
+        target, dotted = _locate(node, loc) if node is not None else (None, ".".join(loc))
+        where = source
+        if target is not None and hasattr(target, "start_mark"):
+            where = f"{source}:{target.start_mark.line + 1}:{target.start_mark.column + 1}"
+        problems.append(f"{where}: {dotted}: {message}")
+    if problems:
+        raise DesignError(problems)
+    return spec
+
+
+def load_spec(source) -> Spec:
+    """Read and validate a spec: a path to a YAML file, a dict of the same shape, or a Spec.
+
+    Raises
+    ------
+    DesignError
+        With one ``file:line:col: dotted.path: message`` line per problem.
+    """
+    if isinstance(source, Spec):
+        return source
+    if isinstance(source, dict):
+        return _spec_from(source)
+    data, node = read_yaml(source)
+    return _spec_from(data, node, str(source))
+
+
+def spec_name(spec: Spec, source=None) -> str:
+    """The spec's name: its ``name`` key, else the file's stem, else ``"spec"``."""
+    if spec.name:
+        return spec.name
+    if source is not None and not isinstance(source, (dict, Spec)):
+        return Path(source).stem
+    return "spec"
