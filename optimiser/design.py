@@ -16,11 +16,16 @@ from pydantic import Field, ValidationError, field_validator, model_validator
 from .schema import (
     Capacitance,
     Current,
+    Fraction,
     Frequency,
     Inductance,
     Perveance,
+    Power,
     Resistance,
     Strict,
+    Temperature,
+    TemperatureRise,
+    Time,
     Voltage,
 )
 
@@ -35,6 +40,7 @@ __all__ = [
     "Feed",
     "Node",
     "Design",
+    "Conditions",
     "load_design",
     "read_yaml",
     "validate",
@@ -68,6 +74,8 @@ class EquivalentTransformer(Strict):
     secondary_voltage: Annotated[Voltage, Positive]
     secondary_resistance: Annotated[Resistance, NonNegative]
     leakage_inductance: Annotated[Inductance, NonNegative] = 0.0
+    #: RMS current the HV winding is rated for (per half-winding for centre-tap)
+    rated_current: Optional[Annotated[Current, Positive]] = None
 
 
 class DiodeModel(Strict):
@@ -88,6 +96,9 @@ class Rectifier(Strict):
     topology: Literal["bridge", "centre-tap", "hybrid-bridge"]
     diode: Optional[Union[DiodeModel, str]] = None
     valve: Optional[Union[ValveModel, str]] = None
+    #: an indirectly heated rectifier valve whose heater shares a winding held near chassis
+    #: potential with other valves (its cathode then sits at B+ above its heater)
+    heater_shared: bool = False
 
 
 class Load(Strict):
@@ -115,6 +126,10 @@ class Feed(Strict):
 
     resistance: Annotated[Resistance, NonNegative] = 0.0
     inductance: Annotated[Inductance, NonNegative] = 0.0
+    #: a dropping resistor's power rating
+    power_rating: Optional[Annotated[Power, Positive]] = None
+    #: a choke's DC current rating
+    current_rating: Optional[Annotated[Current, Positive]] = None
 
     @model_validator(mode="after")
     def _not_a_short(self):
@@ -129,6 +144,39 @@ class Node(Strict):
     esr: Annotated[Resistance, NonNegative] = 0.0
     feed: Optional[Feed] = None
     load: Optional[Load] = None
+    #: the capacitor's rated DC voltage, and the catalogue series it comes from
+    rated_voltage: Optional[Annotated[Voltage, Positive]] = None
+    capacitor_series: Optional[str] = None
+    #: bleeder resistor across this node's capacitor, and its power rating
+    bleeder: Optional[Annotated[Resistance, Positive]] = None
+    bleeder_power_rating: Optional[Annotated[Power, Positive]] = None
+
+
+class Conditions(Strict):
+    """Where and how the supply must survive; every default is common practice, no source."""
+
+    mains_low: Annotated[Fraction, Field(ge=0, lt=0.5)] = 0.10
+    mains_high: Annotated[Fraction, Field(ge=0, lt=0.5)] = 0.10
+    #: the winder's tolerance on the secondary voltage
+    transformer_tolerance: Annotated[Fraction, Field(ge=0, lt=0.3)] = 0.05
+    #: capacitor tolerance; the catalogue series' own when not given
+    capacitor_minus: Optional[Annotated[Fraction, Field(ge=0, lt=1)]] = None
+    capacitor_plus: Optional[Annotated[Fraction, Field(ge=0, lt=2)]] = None
+    ambient: Temperature = 40.0
+    #: capacitor self-heating at its rated ripple current
+    ripple_self_heating: Annotated[TemperatureRise, Field(gt=0)] = 5.0
+    #: time the output valves take to start drawing current after switch-on
+    output_valve_warm_up: Annotated[Time, Field(ge=0)] = 15.0
+    #: warm-up of a valve rectifier with no figure in its data
+    rectifier_warm_up: Annotated[Time, Field(ge=0)] = 10.0
+    #: margin asked of silicon PIV ratings over the worst reverse voltage
+    silicon_piv_margin: Annotated[Fraction, Field(ge=0, lt=2)] = 0.20
+    safe_voltage: Annotated[Voltage, Positive] = 60.0
+    discharge_time_limit: Annotated[Time, Positive] = 60.0
+    #: the sag test: full power for this long, then idle for this long
+    sag_hold: Annotated[Time, Positive] = 0.6
+    sag_release: Annotated[Time, Positive] = 0.8
+    capacitor_series: str = "generic-105C-radial"
 
 
 class Design(Strict):
@@ -138,6 +186,7 @@ class Design(Strict):
     transformer: EquivalentTransformer
     rectifier: Rectifier
     nodes: list[Node] = Field(min_length=1)
+    conditions: Conditions = Conditions()
 
     @field_validator("nodes")
     @classmethod
@@ -264,12 +313,11 @@ def _message(error) -> str:
 def validation_problems(exc: ValidationError, node=None, source="design") -> list[str]:
     """One readable line per pydantic error, with file:line:col when a node tree is given."""
     errors = exc.errors()
-    # for "part name or parameter block" unions, drop the "should be a string" noise when the
-    # block itself has errors
-    block_errors = {tuple(e["loc"][:-2]) for e in errors if len(e["loc"]) >= 2}
     lines = []
     for e in errors:
         loc = tuple(e["loc"])
+        # "part name or parameter block": drop the "should be a string" noise when the block
+        # itself has errors
         if e["type"] == "string_type" and loc[-1] == "str" and any(
                 other[: len(loc) - 1] == loc[:-1] and other != loc for other in
                 (tuple(x["loc"]) for x in errors)):
@@ -281,7 +329,6 @@ def validation_problems(exc: ValidationError, node=None, source="design") -> lis
         text = f"{where}: {dotted}: {_message(e)}" if dotted else f"{where}: {_message(e)}"
         if text not in lines:
             lines.append(text)
-    del block_errors
     return lines
 
 

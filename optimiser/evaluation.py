@@ -12,12 +12,16 @@ import numpy as np
 import pandas as pd
 
 from . import ladder, rectifier, supply
+from .transients import node_outputs
 from .design import Design, load_design
 
 __all__ = ["NodeFigures", "SupplyResult", "Batch", "evaluate", "evaluate_many", "solve_batch"]
 
 #: A rectifier path of less resistance than this (winding plus feed) is taken as this. [ohm]
 MIN_PATH_RESISTANCE = 1e-3
+#: Leakage of every capacitor, so a supply with no load at all (switch-on, before the valves
+#: conduct) still has one periodic steady state. 1 nS = 1 Gohm, far below real leakage. [S]
+LEAKAGE_CONDUCTANCE = 1e-9
 #: Steps per half mains cycle in the steady-state solution (see tests/test_supply.py for the
 #: step-size check against a tight reference).
 STEPS_PER_HALF_CYCLE = 256
@@ -123,27 +127,31 @@ class Batch:
         )
 
     @classmethod
-    def from_designs(cls, designs, mains_scale=None, loads="nominal"):
+    def from_designs(cls, designs, mains_scale=1.0, capacitance_scale=1.0, loads="full"):
         """Arrays for designs that share one ladder shape.
 
         Parameters
         ----------
         designs : list of Design
-        mains_scale : array-like, optional
-            Mains voltage over its nominal value, per design. [-]
-        loads : {"nominal", "idle", "full"}
-            Which current of an idle/full-power load to use; "nominal" takes full power.
+        mains_scale : float or array-like
+            Source EMF over its nominal value, per design (mains and winding tolerance). [-]
+        capacitance_scale : float or array-like
+            Every capacitor over its nominal value, per design. [-]
+        loads : {"full", "idle", "none"}
+            Which current of an idle/full-power load to use. "none": the valves draw nothing
+            yet (switch-on); resistive loads and bleeders stay.
         """
         structure = cls.structure_of(designs[0])
         n = structure.n_nodes
         count = len(designs)
         frequency = designs[0].mains.frequency
-        scale = np.ones(count) if mains_scale is None else np.asarray(mains_scale, float)
+        scale = np.broadcast_to(np.asarray(mains_scale, float), (count,))
+        c_scale = np.broadcast_to(np.asarray(capacitance_scale, float), (count,))
         cap = np.empty((count, n))
         esr = np.zeros((count, n))
         feed_r = np.zeros((count, n))
         feed_l = np.zeros((count, n))
-        g_load = np.zeros((count, n))
+        g_load = np.full((count, n), LEAKAGE_CONDUCTANCE)
         i_load = np.zeros((count, n))
         r_w = np.empty(count)
         l_w = np.empty(count)
@@ -162,15 +170,19 @@ class Batch:
             r_w[b] = t.secondary_resistance
             l_w[b] = t.leakage_inductance
             for k, node in enumerate(d.nodes):
-                cap[b, k] = node.capacitance
+                cap[b, k] = node.capacitance * c_scale[b]
                 esr[b, k] = node.esr
+                if node.bleeder is not None:
+                    g_load[b, k] += 1.0 / node.bleeder
                 if node.feed is not None:
                     feed_r[b, k] = node.feed.resistance
                     feed_l[b, k] = node.feed.inductance
                 if node.load is not None:
                     ld = node.load
                     if ld.resistance is not None:
-                        g_load[b, k] = 1.0 / ld.resistance
+                        g_load[b, k] += 1.0 / ld.resistance
+                    elif loads == "none":
+                        pass
                     elif ld.current is not None:
                         i_load[b, k] = ld.current
                     else:
@@ -286,15 +298,11 @@ def figures(batch: Batch, model: ladder.StateSpace, waves: supply.Waveforms) -> 
     drop = waves.drop[:, :-1]
     src = waves.source[:, :-1]
 
-    def output(maps):
-        c, d = maps
-        return (np.einsum("bkn,btn->btk", c, xs) + d[:, None, :, 0] * es[:, :, None]
-                + np.einsum("bkm,bm->bk", d[:, :, 1:], loads)[:, None, :])
-
-    node_v = output(model.node_voltage)
-    cap_i = output(model.capacitor_current)
-    feed_i = output(model.feed_current)
+    node_v = node_outputs(model.node_voltage, xs, es, loads)
+    cap_i = node_outputs(model.capacitor_current, xs, es, loads)
+    feed_i = node_outputs(model.feed_current, xs, es, loads)
     dc = node_v.mean(axis=1)
+    node_peak = node_v.max(axis=1)
     ripple_pp = node_v.max(axis=1) - node_v.min(axis=1)
     ripple_rms = node_v.std(axis=1)
     cap_rms = np.sqrt((cap_i ** 2).mean(axis=1))
@@ -335,6 +343,9 @@ def figures(batch: Batch, model: ladder.StateSpace, waves: supply.Waveforms) -> 
         "ripple_pp": ripple_pp,
         "ripple_rms": ripple_rms,
         "capacitor_rms_current": cap_rms,
+        "peak_voltage": node_peak,
+        "feed_rms_current": np.sqrt((feed_i ** 2).mean(axis=1)),
+        "feed_dc_current": feed_i.mean(axis=1),
         "rectifier_peak_current": peak_i,
         "rectifier_average_current": 0.5 * i_mean,
         "rectifier_rms_current": np.sqrt(0.5 * i_sq),
