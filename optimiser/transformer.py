@@ -58,6 +58,7 @@ __all__ = [
     "copper_resistivity",
     "awg_diameter",
     "resistance_per_length",
+    "wire_size_for_current",
     "turns_for_voltage",
     "ei_window",
     "ei_core_area",
@@ -928,7 +929,8 @@ class _WindingFigures:
     loaded_voltage : float
         RMS voltage at rated load per path as built, with integer turns (primary: as rated_voltage). [V]
     no_load_voltage : float
-        RMS voltage per path with every winding unloaded. [V]
+        RMS voltage per path with every winding unloaded (the primary still carries the core-loss
+        current; the magnetising current, in quadrature, is neglected). [V]
     rms_current : float
         RMS current per path at rated load (primary: at the lowest mains voltage, total). [A]
     turns : float
@@ -1084,7 +1086,8 @@ class _TransformerFigures:
     winding_temperature : float
         Ambient + rise. [degC]
     secondary_va : float
-        VA rating, sum of V_loaded x I_rms over every conducting path of every secondary. [VA]
+        VA rating, sum of rated V x I_rms over every conducting path of every secondary (a
+        centre-tapped HV counts both halves, as the trade rates it). [VA]
     primary_va : float
         Lowest mains voltage x primary RMS current. [VA]
     area_product : float
@@ -1283,9 +1286,10 @@ class _Setup:
     interwinding: float
     outer_wrap: float
     screen_thickness: float
+    sizing: np.ndarray  # current density [A/m^2] or target HV series resistance [ohm]
 
 
-def _as_population(name: str, value, n: int | None = None) -> np.ndarray:
+def _as_population(name: str, value) -> np.ndarray:
     array = np.atleast_1d(np.asarray(value, dtype=float))
     if array.ndim != 1:
         raise ValueError(f"{name} must be a scalar or a 1-D array, got shape {array.shape}")
@@ -1334,6 +1338,8 @@ def _prepare(
     ambient_temperature,
     wire_system,
     enamel_grade,
+    sizing_name,
+    sizing,
 ) -> _Setup:
     if not (isinstance(frequency, (int, float)) and math.isfinite(frequency) and frequency > 0):
         raise ValueError(f"frequency must be a positive number of hertz, got {frequency!r}")
@@ -1368,6 +1374,7 @@ def _prepare(
         "hv_rms_current": hv_rms_current,
         "hv_centre_tapped": hv_centre_tapped,
         "steel_index": steel_index,
+        sizing_name: sizing,
     }
     for w in aux:
         columns[f"{w.name}.voltage"] = w.voltage
@@ -1386,7 +1393,7 @@ def _prepare(
         limit = len(data.cores) if name == "core_index" else len(data.steels)
         if np.any(values != np.rint(values)) or np.any(values < 0) or np.any(values >= limit):
             raise ValueError(f"{name} must be whole numbers 0..{limit - 1}, got {values[(values < 0) | (values >= limit) | (values != np.rint(values))][0]!r}")
-    for name in ("stack", "max_flux_density", "hv_voltage") + tuple(f"{w.name}.voltage" for w in aux):
+    for name in ("stack", "max_flux_density", "hv_voltage", sizing_name) + tuple(f"{w.name}.voltage" for w in aux):
         _check_positive(name, arrays[name])
     for name in ("hv_rms_current",) + tuple(f"{w.name}.rms_current" for w in aux):
         _check_positive(name, arrays[name], allow_zero=True)
@@ -1444,17 +1451,52 @@ def _prepare(
         interwinding=data.material(practice.interwinding.material).thickness * practice.interwinding.layers,
         outer_wrap=data.material(practice.outer_wrap.material).thickness * practice.outer_wrap.layers,
         screen_thickness=data.material(practice.screen.material).thickness * practice.screen.layers,
+        sizing=arrays[sizing_name],
     )
+
+
+def _snap_up(table: WireTable, current, current_density):
+    required = np.sqrt(4.0 * np.asarray(current, dtype=float) / (np.pi * np.asarray(current_density)))
+    index = np.searchsorted(table.diameters, required, side="left")
+    available = index < table.diameters.size
+    index = np.minimum(index, table.diameters.size - 1)
+    return index, table.diameters[index], available
 
 
 def _choose_wire(setup: _Setup, current, current_density):
     """Smallest offered wire whose area carries ``current`` at ``current_density`` (snapped up)."""
-    table = setup.wire.diameters
-    required = np.sqrt(4.0 * current / (np.pi * current_density))
-    index = np.searchsorted(table, required, side="left")
-    available = index < table.size
-    index = np.minimum(index, table.size - 1)
-    return index, table[index], available
+    return _snap_up(setup.wire, current, current_density)
+
+
+def wire_size_for_current(rms_current, current_density, wire_system="metric", data=None):
+    """Smallest real wire size whose bare area carries a current at a current density.
+
+    Parameters
+    ----------
+    rms_current : numeric
+        RMS current. [A]
+    current_density : numeric
+        Allowed RMS current density. [A/m^2]
+    wire_system : {"metric", "awg", "both"}
+        IEC 60317 nominal diameters, ASTM B258 gauges, or both.
+    data : TransformerData, optional
+
+    Returns
+    -------
+    tuple
+        (bare diameter [m], label array, available bool array); when no offered size is large
+        enough the largest is returned with available False.
+
+    References
+    ----------
+    .. [1] ASTM B258 (AWG diameters); IEC 60317-0-1 (nominal diameters of enamelled round wire).
+    """
+    data = data if data is not None else load_transformer_data()
+    if wire_system not in _WIRE_SYSTEMS:
+        raise ValueError(f"wire_system must be one of {', '.join(_WIRE_SYSTEMS)}, got {wire_system!r}")
+    table = data.wire_tables[wire_system]
+    index, diameter, available = _snap_up(table, rms_current, current_density)
+    return diameter, np.array(table.labels)[index], available
 
 
 def _enamel_increase(setup: _Setup, diameter):
@@ -1674,7 +1716,8 @@ def _windings(setup: _Setup, state) -> tuple:
     e = state["e_primary"]
     v_low = setup.taps[0]
     loaded = np.vstack([np.full(setup.n, v_low), ratio * e - setup.i_rated * state["r_path"][1:]])
-    no_load = np.vstack([np.full(setup.n, v_low), ratio * v_low])
+    i_core = state["iron"][4]
+    no_load = np.vstack([np.full(setup.n, v_low), ratio * (v_low - state["r_path"][0] * i_core)])
     rated = np.vstack([np.full(setup.n, v_low), setup.v_target])
     current = np.vstack([state["i_primary"], setup.i_rated])
     paths = np.vstack([np.ones(setup.n), setup.paths])
@@ -1728,7 +1771,7 @@ def _assemble(setup: _Setup, state, current_density, target_met, settings) -> Tr
     hv_loaded = hv_open - hv.rms_current * r_s
     window_width, window_height = ei_window(setup.a)
     copper_mass = sum(w.copper_mass for w in windings)
-    secondary_va = sum(w.loaded_voltage * w.rms_current * w.conducting_paths for w in windings[1:])
+    secondary_va = sum(w.rated_voltage * w.rms_current * w.conducting_paths for w in windings[1:])
     copper_area = np.sum(state["turns"] * 0.25 * np.pi * state["diameter"] ** 2, axis=0)
     low, high = data.lamination.stack_ratio_range
     ratio_stack = setup.stack / setup.a
@@ -1793,13 +1836,6 @@ def _assemble(setup: _Setup, state, current_density, target_met, settings) -> Tr
         **flags,
         feasible=feasible,
     )
-
-
-def _population_column(name, value, n):
-    array = _as_population(name, value)
-    if array.shape[0] not in (1, n):
-        raise ValueError(f"{name} must have length 1 or {n} like the other population inputs, got {array.shape[0]}")
-    return np.broadcast_to(array, (n,)).copy()
 
 
 def _series_resistance(state):
@@ -1911,6 +1947,7 @@ def design_population(
     data = data if data is not None else load_transformer_data()
     if (current_density is None) == (target_resistance is None):
         raise ValueError("give exactly one of current_density or target_resistance")
+    by_density = current_density is not None
     setup = _prepare(
         data,
         core_index=core_index,
@@ -1931,18 +1968,17 @@ def design_population(
         ambient_temperature=ambient_temperature,
         wire_system=wire_system,
         enamel_grade=enamel_grade,
+        sizing_name="current_density" if by_density else "target_resistance",
+        sizing=current_density if by_density else target_resistance,
     )
-    if current_density is not None:
-        j = _population_column("current_density", current_density, setup.n)
-        _check_positive("current_density", j)
+    if by_density:
+        j = setup.sizing
         target_met = np.ones(setup.n, bool)
         state = _solve(setup, j)
     else:
-        target = _population_column("target_resistance", target_resistance, setup.n)
-        _check_positive("target_resistance", target)
-        j = _current_density_for_target(setup, target)
+        j = _current_density_for_target(setup, setup.sizing)
         state = _solve(setup, j)
-        target_met = _series_resistance(state) <= target * (1.0 + 1e-9)
+        target_met = _series_resistance(state) <= setup.sizing * (1.0 + 1e-9)
     settings = {
         "frequency": setup.frequency,
         "primary_voltages": tuple(float(v) for v in setup.taps),
