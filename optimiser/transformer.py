@@ -1109,6 +1109,9 @@ class _TransformerFigures:
         RMS per HV path at the rated current. [V]
     hv_regulation : float
         (hv_open_circuit_voltage - hv_loaded_voltage) / hv_loaded_voltage. [-]
+    max_voltage_error : float
+        Largest |loaded / rated - 1| over the secondaries: what integer turns leave (few turns per
+        volt on large cores make low-voltage heaters coarse). No tolerance is imposed here. [-]
     current_density_used : float
         Current density the wire was chosen for. [A/m^2]
     fits_window, wire_available, flux_ok, temperature_ok, stack_in_range, regulation_solvable,
@@ -1167,6 +1170,7 @@ class _TransformerFigures:
     hv_leakage_inductance: Any
     hv_loaded_voltage: Any
     hv_regulation: Any
+    max_voltage_error: Any
     current_density_used: Any
     fits_window: Any
     wire_available: Any
@@ -1317,30 +1321,10 @@ def _check_order(order: Sequence[str], expected: Sequence[str]) -> None:
         )
 
 
-def _prepare(
-    data: TransformerData,
-    *,
-    core_index,
-    stack,
-    max_flux_density,
-    hv_voltage,
-    hv_rms_current,
-    hv_centre_tapped,
-    frequency,
-    primary_voltages,
-    primary_arrangement,
-    heaters,
-    bias,
-    screen,
-    winding_order,
-    steel_index,
-    insulation_class,
-    ambient_temperature,
-    wire_system,
-    enamel_grade,
-    sizing_name,
-    sizing,
-) -> _Setup:
+def _check_shared(
+    frequency, primary_voltages, primary_arrangement, wire_system, enamel_grade, ambient_temperature, screen
+):
+    """Validate the inputs shared by the whole population; return the sorted mains voltages."""
     if not (isinstance(frequency, (int, float)) and math.isfinite(frequency) and frequency > 0):
         raise ValueError(f"frequency must be a positive number of hertz, got {frequency!r}")
     if primary_arrangement not in _ARRANGEMENTS:
@@ -1356,29 +1340,13 @@ def _prepare(
         raise ValueError(f"enamel_grade must be 1 or 2, got {enamel_grade!r}")
     if not (isinstance(ambient_temperature, (int, float)) and math.isfinite(ambient_temperature)):
         raise ValueError(f"ambient_temperature must be a number of degC, got {ambient_temperature!r}")
-    class_temperature = data.class_temperature(insulation_class)
     if not isinstance(screen, bool):
         raise ValueError(f"screen must be True or False, got {screen!r}")
+    return taps
 
-    heaters = tuple(heaters)
-    aux = heaters + ((AuxiliaryWinding("bias", bias.voltage, bias.rms_current, bias.centre_tapped),) if bias else ())
-    heater_names = [h.name for h in heaters]
-    if len(set(heater_names)) != len(heater_names) or any(h in _RESERVED_NAMES or not h for h in heater_names):
-        raise ValueError(f"heater names must be unique, non-empty and not one of {_RESERVED_NAMES}, got {heater_names}")
 
-    columns = {
-        "core_index": core_index,
-        "stack": stack,
-        "max_flux_density": max_flux_density,
-        "hv_voltage": hv_voltage,
-        "hv_rms_current": hv_rms_current,
-        "hv_centre_tapped": hv_centre_tapped,
-        "steel_index": steel_index,
-        sizing_name: sizing,
-    }
-    for w in aux:
-        columns[f"{w.name}.voltage"] = w.voltage
-        columns[f"{w.name}.rms_current"] = w.rms_current
+def _population_arrays(data: TransformerData, columns: dict, aux: Sequence[AuxiliaryWinding], sizing_name: str) -> dict:
+    """Broadcast every per-design input to one length n and check its values."""
     arrays = {name: _as_population(name, value) for name, value in columns.items()}
     try:
         shape = np.broadcast_shapes(*(a.shape for a in arrays.values()))
@@ -1386,40 +1354,59 @@ def _prepare(
         sizes = {name: a.shape[0] for name, a in arrays.items() if a.shape[0] != 1}
         raise ValueError(f"population inputs must have one common length (or 1), got {sizes}") from None
     arrays = {name: np.broadcast_to(a, shape).copy() for name, a in arrays.items()}
-    n = shape[0]
-
-    for name in ("core_index", "steel_index"):
+    for name, limit in (("core_index", len(data.cores)), ("steel_index", len(data.steels))):
         values = arrays[name]
-        limit = len(data.cores) if name == "core_index" else len(data.steels)
-        if np.any(values != np.rint(values)) or np.any(values < 0) or np.any(values >= limit):
-            raise ValueError(f"{name} must be whole numbers 0..{limit - 1}, got {values[(values < 0) | (values >= limit) | (values != np.rint(values))][0]!r}")
+        bad = (values != np.rint(values)) | (values < 0) | (values >= limit)
+        if np.any(bad):
+            raise ValueError(f"{name} must be whole numbers 0..{limit - 1}, got {values[bad][0]!r}")
     for name in ("stack", "max_flux_density", "hv_voltage", sizing_name) + tuple(f"{w.name}.voltage" for w in aux):
         _check_positive(name, arrays[name])
     for name in ("hv_rms_current",) + tuple(f"{w.name}.rms_current" for w in aux):
         _check_positive(name, arrays[name], allow_zero=True)
-    hv_ct = arrays["hv_centre_tapped"]
-    if np.any((hv_ct != 0) & (hv_ct != 1)):
+    if np.any((arrays["hv_centre_tapped"] != 0) & (arrays["hv_centre_tapped"] != 1)):
         raise ValueError("hv_centre_tapped must be True/False (or 1/0)")
+    return arrays
 
+
+def _winding_layout(heaters, bias, screen, winding_order):
+    """Names and roles of the windings (primary, hv, heaters, bias) and their order on the bobbin."""
+    heater_names = [h.name for h in heaters]
+    if len(set(heater_names)) != len(heater_names) or any(h in _RESERVED_NAMES or not h for h in heater_names):
+        raise ValueError(f"heater names must be unique, non-empty and not one of {_RESERVED_NAMES}, got {heater_names}")
+    bias_winding = (AuxiliaryWinding("bias", bias.voltage, bias.rms_current, bias.centre_tapped),) if bias else ()
+    aux = tuple(heaters) + bias_winding
     names = ("primary", "hv") + tuple(w.name for w in aux)
     roles = ("primary", "hv") + ("heater",) * len(heaters) + (("bias",) if bias else ())
     expected = _default_order(screen, bias is not None, heater_names)
     order_names = tuple(winding_order) if winding_order is not None else expected
     _check_order(order_names, expected)
     order = tuple(-1 if name == "screen" else names.index(name) for name in order_names)
+    return aux, names, roles, order
 
+
+def _prepare(data: TransformerData, columns: dict, *, heaters, bias, screen, winding_order, frequency,
+             primary_voltages, primary_arrangement, insulation_class, ambient_temperature, wire_system,
+             enamel_grade, sizing_name) -> _Setup:
+    """Check the inputs and work out everything that stays fixed during the fixed-point passes."""
+    taps = _check_shared(
+        frequency, primary_voltages, primary_arrangement, wire_system, enamel_grade, ambient_temperature, screen
+    )
+    class_temperature = data.class_temperature(insulation_class)
+    aux, names, roles, order = _winding_layout(tuple(heaters), bias, screen, winding_order)
+    columns = dict(columns)
+    for w in aux:
+        columns[f"{w.name}.voltage"] = w.voltage
+        columns[f"{w.name}.rms_current"] = w.rms_current
+    arrays = _population_arrays(data, columns, aux, sizing_name)
+    n = arrays["stack"].shape[0]
+    hv_ct = arrays["hv_centre_tapped"]
     core = arrays["core_index"].astype(int)
     steel = arrays["steel_index"].astype(int)
     a = data.tongue_widths[core]
     sf = np.array([s.stacking_factor for s in data.steels])[steel]
-    bobbin = data.bobbin
-    practice = data.wire.winding_practice
+    bobbin, practice = data.bobbin, data.wire.winding_practice
     offset = bobbin.tongue_clearance + bobbin.wall_thickness
     window_width, window_height = ei_window(a)
-    paths = np.vstack([1.0 + hv_ct] + [np.ones(n)] * len(aux))
-    centre_tapped = np.vstack(
-        [np.zeros(n, bool), hv_ct.astype(bool)] + [np.full(n, bool(w.centre_tapped)) for w in aux]
-    )
     return _Setup(
         n=n,
         data=data,
@@ -1441,8 +1428,10 @@ def _prepare(
         roles=roles,
         v_target=np.vstack([arrays["hv_voltage"]] + [arrays[f"{w.name}.voltage"] for w in aux]),
         i_rated=np.vstack([arrays["hv_rms_current"]] + [arrays[f"{w.name}.rms_current"] for w in aux]),
-        paths=paths,
-        centre_tapped=centre_tapped,
+        paths=np.vstack([1.0 + hv_ct] + [np.ones(n)] * len(aux)),
+        centre_tapped=np.vstack(
+            [np.zeros(n, bool), hv_ct.astype(bool)] + [np.full(n, bool(w.centre_tapped)) for w in aux]
+        ),
         order=order,
         wire=data.wire_tables[wire_system],
         enamel_grade=enamel_grade,
@@ -1548,7 +1537,8 @@ def _iron(setup: _Setup, primary_turns):
     density = np.array([s.density_kg_per_m3 for s in data.steels])[setup.steel]
     steel_mass = density * ei_steel_volume(setup.a, setup.stack, sf)
     k, alpha, beta = (data.steinmetz[setup.steel, j] for j in range(3))
-    core_loss = steel_mass * steinmetz_loss(setup.frequency, b, k, alpha, beta) * data.lamination.core_loss_building_factor
+    specific_loss = steinmetz_loss(setup.frequency, b, k, alpha, beta)
+    core_loss = steel_mass * specific_loss * data.lamination.core_loss_building_factor
     field = np.zeros(setup.n)
     for s, steel in enumerate(data.steels):
         field = np.where(setup.steel == s, magnetising_field(b, steel.magnetisation), field)
@@ -1648,7 +1638,8 @@ def _winding_temperature(setup: _Setup, state):
 
 def _solve(setup: _Setup, current_density):
     """Fixed point of turns, wire, geometry, resistance and temperature; then integer turns."""
-    tap_turns = np.maximum(np.rint(turns_for_voltage(setup.taps[:, None], setup.frequency, setup.b_target, setup.core_area)), 1.0)
+    ideal = turns_for_voltage(setup.taps[:, None], setup.frequency, setup.b_target, setup.core_area)
+    tap_turns = np.maximum(np.rint(ideal), 1.0)
     n_eq = tap_turns[0]
     n_primary = 2.0 * n_eq if setup.dual else tap_turns[-1]
     iron = _iron(setup, n_eq)
@@ -1769,6 +1760,8 @@ def _assemble(setup: _Setup, state, current_density, target_met, settings) -> Tr
     hv_open = ratio_hv * (setup.taps[0] - r_primary * others)
     r_s = hv.resistance_hot + ratio_hv**2 * r_primary
     hv_loaded = hv_open - hv.rms_current * r_s
+    positive = hv_loaded > 0.0
+    loaded_error = np.vstack([w.loaded_voltage / w.rated_voltage - 1.0 for w in windings[1:]])
     window_width, window_height = ei_window(setup.a)
     copper_mass = sum(w.copper_mass for w in windings)
     secondary_va = sum(w.rated_voltage * w.rms_current * w.conducting_paths for w in windings[1:])
@@ -1831,7 +1824,8 @@ def _assemble(setup: _Setup, state, current_density, target_met, settings) -> Tr
         hv_series_resistance_20=hv.resistance_20 + ratio_hv**2 * r_primary_20,
         hv_leakage_inductance=_hv_leakage(setup, state),
         hv_loaded_voltage=hv_loaded,
-        hv_regulation=np.where(hv_loaded > 0.0, (hv_open - hv_loaded) / np.where(hv_loaded > 0.0, hv_loaded, 1.0), np.inf),
+        hv_regulation=np.where(positive, (hv_open - hv_loaded) / np.where(positive, hv_loaded, 1.0), np.inf),
+        max_voltage_error=np.max(np.abs(loaded_error), axis=0),
         current_density_used=current_density,
         **flags,
         feasible=feasible,
@@ -1948,28 +1942,32 @@ def design_population(
     if (current_density is None) == (target_resistance is None):
         raise ValueError("give exactly one of current_density or target_resistance")
     by_density = current_density is not None
+    sizing_name = "current_density" if by_density else "target_resistance"
+    columns = {
+        "core_index": core_index,
+        "stack": stack,
+        "max_flux_density": max_flux_density,
+        "hv_voltage": hv_voltage,
+        "hv_rms_current": hv_rms_current,
+        "hv_centre_tapped": hv_centre_tapped,
+        "steel_index": steel_index,
+        sizing_name: current_density if by_density else target_resistance,
+    }
     setup = _prepare(
         data,
-        core_index=core_index,
-        stack=stack,
-        max_flux_density=max_flux_density,
-        hv_voltage=hv_voltage,
-        hv_rms_current=hv_rms_current,
-        hv_centre_tapped=hv_centre_tapped,
-        frequency=frequency,
-        primary_voltages=primary_voltages,
-        primary_arrangement=primary_arrangement,
+        columns,
         heaters=heaters,
         bias=bias,
         screen=screen,
         winding_order=winding_order,
-        steel_index=steel_index,
+        frequency=frequency,
+        primary_voltages=primary_voltages,
+        primary_arrangement=primary_arrangement,
         insulation_class=insulation_class,
         ambient_temperature=ambient_temperature,
         wire_system=wire_system,
         enamel_grade=enamel_grade,
-        sizing_name="current_density" if by_density else "target_resistance",
-        sizing=current_density if by_density else target_resistance,
+        sizing_name=sizing_name,
     )
     if by_density:
         j = setup.sizing
@@ -2088,7 +2086,9 @@ class TransformerBuild(Strict):
         return self
 
 
-def build_from_block(block: TransformerBuild, frequency: float, data: TransformerData | None = None) -> TransformerDesign:
+def build_from_block(
+    block: TransformerBuild, frequency: float, data: TransformerData | None = None
+) -> TransformerDesign:
     """Design the transformer a build block describes (the population code path with n = 1).
 
     Parameters
@@ -2106,7 +2106,9 @@ def build_from_block(block: TransformerBuild, frequency: float, data: Transforme
     """
     data = data if data is not None else load_transformer_data()
     heaters = [AuxiliaryWinding(h.name, h.voltage, h.current, h.centre_tapped) for h in block.heaters]
-    bias = AuxiliaryWinding("bias", block.bias.voltage, block.bias.current, block.bias.centre_tapped) if block.bias else None
+    bias = None
+    if block.bias is not None:
+        bias = AuxiliaryWinding("bias", block.bias.voltage, block.bias.current, block.bias.centre_tapped)
     population = design_population(
         core_index=data.core_index(block.core),
         stack=block.stack,
@@ -2186,7 +2188,8 @@ def _primary_section(design: TransformerDesign) -> dict:
         "voltages": shown,
         "arrangement": arrangement,
         "frequency": format_quantity(design.frequency, "Hz", 3),
-        "rms_current_at_rated_load": f"{format_quantity(primary.rms_current, 'A')} at {format_quantity(voltages[0], 'V', 4)}",
+        "rms_current_at_rated_load": f"{format_quantity(primary.rms_current, 'A')} "
+        f"at {format_quantity(voltages[0], 'V', 4)}",
         "no_load_current_estimate": format_quantity(design.no_load_current, "A"),
         "maximum_dc_resistance_at_20C": resistance,
         "lead_colours": "",
@@ -2214,9 +2217,10 @@ def _secondary_section(winding: WindingDesign) -> dict:
 
 def _winding_reference(winding: WindingDesign) -> dict:
     halves = winding.conducting_paths == 2
+    half_turns = round(winding.turns_per_path)
     return {
         "winding": winding.name,
-        "turns": f"{round(winding.turns_per_path)} + {round(winding.turns_per_path)}" if halves else str(round(winding.turns)),
+        "turns": f"{half_turns} + {half_turns}" if halves else str(round(winding.turns)),
         "wire": f"{winding.wire_label} enamelled copper",
         "turns_per_layer": str(int(winding.turns_per_layer)),
         "layers": str(int(winding.layers)),
@@ -2227,7 +2231,7 @@ def _winding_reference(winding: WindingDesign) -> dict:
     }
 
 
-def order_sheet(design: TransformerDesign) -> dict:
+def order_sheet(design: TransformerDesign, data: TransformerData | None = None) -> dict:
     """The data of an order sheet for a transformer winder: what to make, with nothing left to guess.
 
     Values are display strings with units (booleans for yes/no fields). Lead colours and terminal
@@ -2238,13 +2242,15 @@ def order_sheet(design: TransformerDesign) -> dict:
     ----------
     design : TransformerDesign
         From :func:`build_from_block` or :meth:`TransformerPopulation.design`.
+    data : TransformerData, optional
+        The parts data the design was made with; the packaged data files when omitted.
 
     Returns
     -------
     dict
     """
-    data = load_transformer_data()
-    build = design.build
+    data = data if data is not None else load_transformer_data()
+    mounting = design.build.mounting if design.build is not None else ""
     class_temperature = data.class_temperature(design.insulation_class)
     allowance = data.wire.winding_practice.hot_spot_allowance
     steel = next((s for s in data.steels if s.name == design.steel_name), None)
@@ -2278,7 +2284,7 @@ def order_sheet(design: TransformerDesign) -> dict:
         "hipot_test": "as required by the safety standard that applies to the finished equipment and "
         "its insulation class (for example IEC 61558-1 for the transformer); test voltage, duration and "
         "test points to be stated by the winder. No value is set by this sheet.",
-        "mounting": (build.mounting if build is not None and build.mounting else "to be agreed between builder and winder"),
+        "mounting": mounting or "to be agreed between builder and winder",
         "lead_colours_and_terminal_markings": "to be agreed between builder and winder",
         "estimated_weight": f"{format_quantity(design.mass, 'kg')} (copper and core steel; bobbin, varnish, "
         "frame and leads extra)",
@@ -2292,6 +2298,16 @@ def order_sheet(design: TransformerDesign) -> dict:
         },
         "cautions": list(_CAUTIONS),
     }
+
+
+_CONSTRUCTION_KEYS = (
+    "electrostatic_screen",
+    "winding_order",
+    "hipot_test",
+    "mounting",
+    "lead_colours_and_terminal_markings",
+    "estimated_weight",
+)
 
 
 def _markdown_value(value) -> str:
@@ -2329,7 +2345,7 @@ def order_sheet_markdown(sheet: dict) -> str:
     lines += ["## Rating and construction", "", f"- {_markdown_title('va_rating')}: {sheet['va_rating']}"]
     lines += [f"- {_markdown_title(k)}: {v}" for k, v in sheet["core"].items()]
     lines += [f"- Insulation, {_markdown_title(k).lower()}: {v}" for k, v in sheet["insulation"].items()]
-    for key in ("electrostatic_screen", "winding_order", "hipot_test", "mounting", "lead_colours_and_terminal_markings", "estimated_weight"):
+    for key in _CONSTRUCTION_KEYS:
         lines.append(f"- {_markdown_title(key)}: {sheet[key]}")
     reference = sheet["design_reference"]
     lines += ["", "## Design reference", "", f"_{reference['note']}._", ""]

@@ -216,6 +216,8 @@ def test_loaded_voltage_meets_target_within_half_a_turn():
         assert abs(winding.loaded_voltage - winding.rated_voltage) <= 0.6 * volts_per_turn
         # Regulation compensation: the no-load voltage sits above the loaded voltage.
         assert winding.no_load_voltage > winding.loaded_voltage
+    worst = max(abs(w.loaded_voltage / w.rated_voltage - 1) for w in design.windings[1:])
+    assert design.max_voltage_error == pytest.approx(worst)
 
 
 def test_equivalent_source_is_consistent():
@@ -250,7 +252,9 @@ def test_vector_call_equals_scalar_calls():
     ct = [False, True, False]
     steels = [M19, DATA.steel_index("transformer-steel"), DATA.steel_index("GO-M6-like")]
     heater_current = [2.0, 3.0, 4.0]
-    common = dict(frequency=50.0, primary_voltages=[115.0, 230.0], insulation_class="B", ambient_temperature=35.0, screen=True)
+    common = dict(
+        frequency=50.0, primary_voltages=[115.0, 230.0], insulation_class="B", ambient_temperature=35.0, screen=True
+    )
     vector = tr.design_population(
         core_index=cores, stack=stacks, max_flux_density=b, hv_voltage=[250.0, 300.0, 350.0],
         hv_rms_current=0.15, hv_centre_tapped=ct, current_density=j, steel_index=steels,
