@@ -2289,7 +2289,7 @@ def order_sheet(design: TransformerDesign, data: TransformerData | None = None) 
         "estimated_weight": f"{format_quantity(design.mass, 'kg')} (copper and core steel; bobbin, varnish, "
         "frame and leads extra)",
         "design_reference": {
-            "note": "the designer's construction, for reference; the winder may substitute an equivalent "
+            "note": "The designer's construction, for reference; the winder may substitute an equivalent "
             "construction that meets every rating above",
             "windings": [_winding_reference(w) for w in design.windings],
             "window_fill": f"{design.build_ratio * 100:.0f} % of the usable build",

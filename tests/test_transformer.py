@@ -407,6 +407,15 @@ def test_order_sheet_has_what_a_winder_needs():
     assert text.startswith("# ") and "## Cautions" in text and "320-0-320 V" in text
 
 
+def test_order_sheet_of_a_population_member():
+    design = typical(primary_voltages=[100.0, 120.0, 220.0, 240.0]).design(0)
+    sheet = tr.order_sheet(design)
+    assert sheet["mounting"] == "to be agreed between builder and winder"
+    assert sheet["primary"]["arrangement"].startswith("one winding with taps at 0 V, 100 V")
+    assert sheet["primary"]["maximum_dc_resistance_at_20C"].count("ohm") == 4
+    assert sheet["electrostatic_screen"] == "no"
+
+
 def test_build_block_rejects_malformed_input():
     with pytest.raises(ValidationError, match="unknown core"):
         tr.TransformerBuild.model_validate({**BLOCK, "core": "EI-a99"})
