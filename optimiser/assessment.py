@@ -196,7 +196,7 @@ def _assess_group(designs, detail):
     steady_peak = np.maximum(f_none["peak_voltage"], f["high_idle"]["peak_voltage"])
     discharge = transients.discharge_times(b_none.structure, b_none.values, f_none["dc_voltage"],
                                            np.array([d.conditions.safe_voltage
-                                                     for d in designs])[:, None])
+                                                     for d in designs]))
 
     valves = [_valve_part(d) for d in designs]
     diodes = [_diode_part(d) for d in designs]

@@ -49,8 +49,9 @@ def node_outputs(maps, states, drive, loads):
     ndarray (B, T, K)
     """
     c, d = maps
-    return (np.einsum("bkn,btn->btk", c, states) + d[:, None, :, 0] * drive[:, :, None]
-            + np.einsum("bkm,bm->bk", d[:, :, 1:], loads)[:, None, :])
+    constant = np.matmul(d[:, :, 1:], loads[:, :, None])[:, None, :, 0]
+    return np.matmul(states, c.transpose(0, 2, 1)) + d[:, None, :, 0] * drive[:, :, None] \
+        + constant
 
 
 def half_cycle_means(values, steps_per_half):
@@ -213,7 +214,7 @@ def discharge_times(structure, values, start_voltages, safe_voltage, *, horizon=
         With the constant-current loads ignored.
     start_voltages : ndarray (B, N)
         Node voltages at switch-off. [V]
-    safe_voltage : float
+    safe_voltage : float or ndarray (B,)
         [V]
     horizon : float
         Longest time looked at; beyond it the result is inf. [s]
@@ -236,6 +237,8 @@ def discharge_times(structure, values, start_voltages, safe_voltage, *, horizon=
     flows = supply.expm(a.reshape(-1, n, n)).reshape(batch, times.size, n, n)
     states = np.einsum("btij,bj->bti", flows, x0)
     v = np.abs(np.einsum("bkn,btn->btk", model.node_voltage[0], states))
+    safe_voltage = np.broadcast_to(np.asarray(safe_voltage, float).reshape(-1, 1, 1)
+                                   if np.ndim(safe_voltage) else safe_voltage, (batch, 1, 1))
     # the last time above the threshold, so a ringing LC ladder counts its last excursion
     above = v > safe_voltage
     last = times.size - 1 - np.argmax(above[:, ::-1], axis=1)
@@ -246,7 +249,7 @@ def discharge_times(structure, values, start_voltages, safe_voltage, *, horizon=
     v0, v1 = v[b, last, k], v[b, nxt, k]
     t0, t1 = times[last], times[nxt]
     with np.errstate(divide="ignore", invalid="ignore"):
-        frac = np.log(v0 / safe_voltage) / np.log(v0 / np.maximum(v1, 1e-300))
+        frac = np.log(v0 / safe_voltage[:, :, 0]) / np.log(v0 / np.maximum(v1, 1e-300))
     t = t0 + np.clip(np.nan_to_num(frac, nan=1.0), 0, 1) * (t1 - t0)
     return np.where(never_above, 0.0, np.where(still_above, np.inf, t))
 
