@@ -8,6 +8,7 @@ Vectorised: every check is a column over a batch of designs, NaN where it does n
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -46,7 +47,7 @@ class CheckColumn:
     source: list
     rectifier: bool = False
 
-    @property
+    @cached_property
     def ratio(self) -> np.ndarray:
         with np.errstate(divide="ignore", invalid="ignore"):
             r = self.limit / self.value if self.minimum else self.value / self.limit
