@@ -338,6 +338,20 @@ def _check_columns(designs, valves, diodes, solved, surge, charge_peak, steady_p
                     "power", "A", only(has_diode, hf["rectifier_average_current"]),
                     _attr(diodes, "i_f_avg"), dsrc, rectifier=True))
 
+    built = [d.transformer_design for d in designs]
+    has_build = np.array([t is not None for t in built])
+    tsrc = "the physical build: McLyman's surface-dissipation rise; IEC 60085 class limit"
+    cols.append(col("transformer.temperature_rise", "winding temperature rise vs the insulation "
+                    "class allowance at the stated ambient", "K",
+                    only(has_build, _attr(built, "temperature_rise")),
+                    _attr(built, "temperature_rise_limit"), tsrc))
+    cols.append(col("transformer.window_fill", "winding build vs the window's room", "-",
+                    only(has_build, _attr(built, "build_ratio")), np.where(has_build, 1.0, np.nan),
+                    "the physical build: layer-by-layer winding build"))
+    cols.append(col("transformer.flux_density", "peak flux density at the highest primary "
+                    "tap voltage vs the steel's limit", "T",
+                    only(has_build, _attr(built, "flux_density")),
+                    _attr(built, "flux_density_limit"), "the steel grade's data"))
     rated_rms = np.array([d.transformer.rated_current or np.nan for d in designs])
     cols.append(col("transformer.hv_rms_current", "HV winding RMS current, high mains, full "
                     "power", "A", hf["secondary_rms_current"], rated_rms,

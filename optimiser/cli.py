@@ -29,7 +29,45 @@ def _parser() -> argparse.ArgumentParser:
     ev = sub.add_parser("evaluate", help="steady state and checks of one concrete supply")
     ev.add_argument("design", help="design file (YAML)")
     ev.add_argument("--json", action="store_true", help="print one JSON object instead of tables")
+    tr = sub.add_parser("transformer", help="the order sheet of a design's physical transformer")
+    tr.add_argument("design", help="design file (YAML) whose transformer has a build block")
+    tr.add_argument("--json", action="store_true", help="print the order sheet as JSON")
+    tr.add_argument("--markdown", metavar="FILE", help="also write the order sheet as Markdown")
     return p
+
+
+def _transformer(args) -> int:
+    from .design import load_design
+    from .transformer import order_sheet, order_sheet_markdown
+
+    design = load_design(args.design)
+    if design.transformer_design is None:
+        raise DesignError([f"{args.design}: transformer: no build block; the order sheet needs a "
+                           "physical transformer (see specs/demo-design-build.yaml)"])
+    sheet = order_sheet(design.transformer_design)
+    text = order_sheet_markdown(sheet)
+    if args.markdown:
+        write_text_atomic(args.markdown, text)
+    print(json.dumps(json_ready(sheet), indent=2, allow_nan=False) if args.json else text)
+    return 0
+
+
+def write_text_atomic(path, text):
+    """Write a whole file or nothing: into a temporary file beside it, then rename."""
+    import os
+    import tempfile
+    from pathlib import Path
+
+    target = Path(path)
+    fd, tmp = tempfile.mkstemp(dir=target.parent if str(target.parent) else ".",
+                               prefix=f".{target.name}.")
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+        os.replace(tmp, target)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
 
 
 def _evaluate(args) -> int:
@@ -137,7 +175,7 @@ def render_supply(result, caution=True) -> str:
     return "\n".join(lines)
 
 
-COMMANDS = {"evaluate": _evaluate}
+COMMANDS = {"evaluate": _evaluate, "transformer": _transformer}
 
 
 def main(argv=None) -> int:

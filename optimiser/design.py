@@ -69,13 +69,30 @@ class Mains(Strict):
 
 
 class EquivalentTransformer(Strict):
-    """The transformer as the rectifier sees it: an open-circuit EMF behind R and L."""
+    """The transformer as the rectifier sees it: an open-circuit EMF behind R and L.
 
-    secondary_voltage: Annotated[Voltage, Positive]
-    secondary_resistance: Annotated[Resistance, NonNegative]
+    Either give the equivalent directly (secondary_voltage, secondary_resistance, optionally
+    leakage_inductance), or give a physical ``build`` (see
+    :class:`optimiser.transformer.TransformerBuild`): the equivalent is then computed from it.
+    """
+
+    secondary_voltage: Optional[Annotated[Voltage, Positive]] = None
+    secondary_resistance: Optional[Annotated[Resistance, NonNegative]] = None
     leakage_inductance: Annotated[Inductance, NonNegative] = 0.0
     #: RMS current the HV winding is rated for (per half-winding for centre-tap)
     rated_current: Optional[Annotated[Current, Positive]] = None
+    build: Optional["TransformerBuild"] = None
+
+    @model_validator(mode="after")
+    def _equivalent_or_build(self):
+        given = self.secondary_voltage is not None and self.secondary_resistance is not None
+        if self.build is None and not given:
+            raise ValueError("give secondary_voltage and secondary_resistance, or a build")
+        if self.build is not None and (self.secondary_voltage is not None
+                                       or self.secondary_resistance is not None):
+            raise ValueError("give either the equivalent (secondary_voltage, "
+                             "secondary_resistance) or a build, not both")
+        return self
 
 
 class DiodeModel(Strict):
@@ -201,6 +218,8 @@ class Design(Strict):
     @model_validator(mode="after")
     def _consistent(self):
         problems = []
+        if self.transformer.build is not None:
+            problems += self._build_problems()
         for k, node in enumerate(self.nodes[1:], start=1):
             if node.feed is None:
                 problems.append(f"nodes.{k}.feed: node '{node.name}' needs a feed from the node "
@@ -214,7 +233,44 @@ class Design(Strict):
                             "node (commutation overlap is not modelled); fold it into the choke")
         if problems:
             raise ValueError("; ".join(problems))
+        if self.transformer.build is not None:
+            return self._with_equivalent()
         return self
+
+    def _build_problems(self):
+        b = self.transformer.build
+        ct = self.rectifier.topology == "centre-tap"
+        if b.hv.centre_tapped != ct:
+            return [f"transformer.build.hv.centre_tapped: must be {str(ct).lower()} for a "
+                    f"{self.rectifier.topology} rectifier"]
+        return []
+
+    def _with_equivalent(self):
+        """A copy whose equivalent source comes from the physical build."""
+        from .transformer import build_from_block
+
+        t = self.transformer
+        built = build_from_block(t.build, self.mains.frequency * 1.0)
+        self._check_mains(t.build)
+        equivalent = t.model_copy(update={
+            "secondary_voltage": float(built.hv_open_circuit_voltage),
+            "secondary_resistance": float(built.hv_series_resistance),
+            "leakage_inductance": float(built.hv_leakage_inductance),
+            "rated_current": t.rated_current or t.build.hv.current,
+        })
+        object.__setattr__(self, "transformer", equivalent)
+        object.__setattr__(self, "_built", built)
+        return self
+
+    def _check_mains(self, build):
+        if not any(abs(v - self.mains.voltage) <= 1e-6 * v for v in build.primaries):
+            raise ValueError(f"transformer.build.primaries: none of them is the mains voltage "
+                             f"{self.mains.voltage:g} V")
+
+    @property
+    def transformer_design(self):
+        """The physical transformer (a TransformerDesign) when the design gives a build."""
+        return getattr(self, "_built", None)
 
     @property
     def valve_path(self) -> bool:
@@ -348,3 +404,9 @@ def load_design(source) -> Design:
         return validate(Design, source)
     data, node = read_yaml(source)
     return validate(Design, data, node, str(source))
+
+
+from .transformer import TransformerBuild  # noqa: E402  (the build block refers back to schema)
+
+EquivalentTransformer.model_rebuild()
+Design.model_rebuild()

@@ -2197,11 +2197,11 @@ def _primary_section(design: TransformerDesign) -> dict:
     }
 
 
-def _secondary_section(winding: WindingDesign) -> dict:
+def _secondary_section(winding: WindingDesign, hv_open_circuit=None) -> dict:
     halves = winding.conducting_paths == 2
     per = " per half" if halves else ""
     kind = {"hv": "high voltage (rectifier)", "bias": "bias supply", "heater": "heater"}[winding.role]
-    return {
+    entry = {
         "name": winding.name,
         "purpose": kind,
         "voltage_at_rated_load": _volts(winding.rated_voltage, winding.centre_tapped, halves),
@@ -2213,6 +2213,11 @@ def _secondary_section(winding: WindingDesign) -> dict:
         "lead_colours": "",
         "terminal_markings": "",
     }
+    if hv_open_circuit is not None:
+        # what the rectifier sees: the HV winding open while the heaters carry their load
+        entry["voltage_open_circuit_heaters_loaded"] = (
+            _volts(hv_open_circuit, winding.centre_tapped, halves) + " (design estimate)")
+    return entry
 
 
 def _winding_reference(winding: WindingDesign) -> dict:
@@ -2263,7 +2268,8 @@ def order_sheet(design: TransformerDesign, data: TransformerData | None = None) 
     return {
         "title": "Mains power transformer: specification for the winder",
         "primary": _primary_section(design),
-        "secondaries": [_secondary_section(w) for w in design.windings[1:]],
+        "secondaries": [_secondary_section(w, design.hv_open_circuit_voltage if w.role == "hv" else None)
+                        for w in design.windings[1:]],
         "va_rating": format_quantity(design.secondary_va, "VA"),
         "core": {
             "lamination": f"{design.core_name}: scrapless EI, tongue {format_quantity(design.tongue_width, 'm')}",
