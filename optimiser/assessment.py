@@ -29,7 +29,8 @@ from . import parts, ratings, transients
 from .design import Design, load_design
 from .evaluation import Batch, SupplyResult, _groups, _result, figures, solve_batch
 
-__all__ = ["Assessment", "AssessmentTable", "assess", "assess_many", "CORNERS"]
+__all__ = ["Assessment", "PairAssessment", "AssessmentTable", "assess", "assess_many",
+           "CORNERS"]
 
 CORNERS = ("nominal_idle", "nominal_full", "low_full", "high_idle", "high_full", "high_none")
 #: How long the switch-on charge-up is simulated to find its overshoot. [s]
@@ -91,6 +92,41 @@ class Assessment:
         out["life"] = self.life
         out["passed"] = self.passed
         return out
+
+
+@dataclass(frozen=True)
+class PairAssessment:
+    """A switchable pair of branches: each switch position assessed as a design of its own.
+
+    Attributes
+    ----------
+    positions : dict of str -> Assessment
+    """
+
+    positions: dict
+
+    @property
+    def checks(self) -> list:
+        """Every position's checks, named ``<position>/<check>``."""
+        from dataclasses import replace as _replace
+
+        return [_replace(c, name=f"{name}/{c.name}") for name, a in self.positions.items()
+                for c in a.checks]
+
+    @property
+    def rectifier_stress(self) -> float:
+        values = [a.rectifier_stress for a in self.positions.values()]
+        finite = [v for v in values if np.isfinite(v)]
+        return max(finite) if finite else float("nan")
+
+    @property
+    def passed(self) -> bool:
+        return all(a.passed for a in self.positions.values())
+
+    def to_dict(self) -> dict:
+        return {"positions": {name: a.to_dict() for name, a in self.positions.items()},
+                "checks": [c.to_dict() for c in self.checks],
+                "rectifier_stress": self.rectifier_stress, "passed": self.passed}
 
 
 @dataclass(frozen=True)
@@ -477,27 +513,50 @@ def assess_many(designs, *, detail=False) -> AssessmentTable:
         Also keep the arrays for plots (sag response, switch-on trajectory).
     """
     parsed = [load_design(d) for d in designs]
-    results = [None] * len(parsed)
-    for _, members in _groups(parsed).items():
-        group = _assess_group([parsed[i] for i in members], detail)
+    # a switchable pair is assessed as one design per switch position
+    flat, owner = [], []
+    for i, d in enumerate(parsed):
+        for name, position in d.positions():
+            flat.append(position)
+            owner.append((i, name))
+    flat_results = [None] * len(flat)
+    for _, members in _groups(flat).items():
+        group = _assess_group([flat[i] for i in members], detail)
         for i, a in zip(members, group):
+            flat_results[i] = a
+    results = [None] * len(parsed)
+    for (i, name), a in zip(owner, flat_results):
+        if name is None:
             results[i] = a
+        else:
+            if results[i] is None:
+                results[i] = PairAssessment(positions={})
+            results[i].positions[name] = a
     rows, ratio_rows = [], []
-    for d, a in zip(parsed, results):
-        row = {"rectifier_stress": a.rectifier_stress, "passed": a.passed,
-               "surge_current": a.switch_on["surge_current"],
-               "rectifier_peak_current": a.steady.rectifier_peak_current,
-               "secondary_rms_current": a.steady.secondary_rms_current}
-        for n in a.nodes:
-            for key, value in n.items():
-                if key != "name":
-                    row[f"{n['name']}.{key}"] = value
-        for node in a.steady.nodes:
-            row[f"{node.name}.ripple_pp"] = node.ripple_pp
+    for a in results:
+        row = {"rectifier_stress": a.rectifier_stress, "passed": a.passed}
+        members = a.positions.items() if isinstance(a, PairAssessment) else [(None, a)]
+        for name, one in members:
+            prefix = "" if name is None else f"{name}/"
+            row.update({f"{prefix}{k}": v for k, v in _row(one).items()})
         rows.append(row)
         ratio_rows.append({c.name: c.ratio for c in a.checks})
     return AssessmentTable(frame=pd.DataFrame(rows), ratios=pd.DataFrame(ratio_rows),
                            assessments=results)
+
+
+def _row(a: Assessment) -> dict:
+    row = {"rectifier_stress": a.rectifier_stress, "passed": a.passed,
+           "surge_current": a.switch_on["surge_current"],
+           "rectifier_peak_current": a.steady.rectifier_peak_current,
+           "secondary_rms_current": a.steady.secondary_rms_current}
+    for n in a.nodes:
+        for key, value in n.items():
+            if key != "name":
+                row[f"{n['name']}.{key}"] = value
+    for node in a.steady.nodes:
+        row[f"{node.name}.ripple_pp"] = node.ripple_pp
+    return row
 
 
 def assess(design, *, detail=True) -> Assessment:

@@ -77,8 +77,41 @@ def _evaluate(args) -> int:
     if args.json:
         print(json.dumps(json_ready(result.to_dict()), indent=2, allow_nan=False))
         return 0
-    print(render_assessment(result))
+    if hasattr(result, "positions"):
+        print(render_pair(result))
+    else:
+        print(render_assessment(result))
     return 0
+
+
+def render_pair(pair) -> str:
+    """Both positions of a switchable pair: what the switch changes, then each in full."""
+    names = list(pair.positions)
+    a, b = (pair.positions[n] for n in names)
+    f = format_quantity
+    lines = [f"Switchable pair: '{names[0]}' and '{names[1]}' side by side", ""]
+    header = f"  {'':<34}{names[0]:>16}{names[1]:>16}"
+    lines += [header, "  " + "-" * (len(header) - 2)]
+    for na, nb in zip(a.nodes, b.nodes):
+        for label, key, unit in (("B+ idle", "idle_voltage", "V"),
+                                 ("B+ full power", "full_power_voltage", "V"),
+                                 ("sag depth", "depth", "V"),
+                                 ("switch-on peak", "switch_on_peak", "V")):
+            lines.append(f"  {na['name'] + ' ' + label:<34}{f(na[key], unit, 4):>16}"
+                         f"{f(nb[key], unit, 4):>16}")
+    for label, fa, fb in (
+            ("rectifier peak current", a.steady.rectifier_peak_current,
+             b.steady.rectifier_peak_current),
+            ("winding RMS current", a.steady.secondary_rms_current,
+             b.steady.secondary_rms_current)):
+        lines.append(f"  {label:<34}{f(fa, 'A'):>16}{f(fb, 'A'):>16}")
+    lines.append(f"  {'rectifier stress':<34}{a.rectifier_stress:>16.2f}{b.rectifier_stress:>16.2f}")
+    lines.append(f"  {'all checks pass':<34}{str(a.passed):>16}{str(b.passed):>16}")
+    for name in names:
+        lines += ["", "=" * 30 + f" position '{name}' " + "=" * 30,
+                  render_assessment(pair.positions[name]).rsplit("\n\n", 1)[0]]
+    lines += ["", CAUTION]
+    return "\n".join(lines)
 
 
 def json_ready(value):

@@ -109,13 +109,46 @@ class ValveModel(Strict):
     perveance: Annotated[Perveance, Positive]
 
 
-class Rectifier(Strict):
+class Reservoir(Strict):
+    """A switchable position's own reservoir capacitor (replaces the first node's)."""
+
+    capacitance: Annotated[Capacitance, Positive]
+    esr: Annotated[Resistance, NonNegative] = 0.0
+    rated_voltage: Optional[Annotated[Voltage, Positive]] = None
+    capacitor_series: Optional[str] = None
+
+
+class Position(Strict):
+    """One branch of a switchable pair: its rectifier and, optionally, its own reservoir."""
+
     topology: Literal["bridge", "centre-tap", "hybrid-bridge"]
+    diode: Optional[Union[DiodeModel, str]] = None
+    valve: Optional[Union[ValveModel, str]] = None
+    heater_shared: bool = False
+    reservoir: Optional[Reservoir] = None
+
+
+class Rectifier(Strict):
+    topology: Literal["bridge", "centre-tap", "hybrid-bridge", "switchable"]
     diode: Optional[Union[DiodeModel, str]] = None
     valve: Optional[Union[ValveModel, str]] = None
     #: an indirectly heated rectifier valve whose heater shares a winding held near chassis
     #: potential with other valves (its cathode then sits at B+ above its heater)
     heater_shared: bool = False
+    #: for ``switchable``: the two branches the switch selects, by name
+    positions: Optional[dict[str, Position]] = None
+
+    @model_validator(mode="after")
+    def _positions(self):
+        if self.topology == "switchable":
+            if not self.positions or len(self.positions) != 2:
+                raise ValueError("a switchable rectifier needs exactly two positions, e.g. "
+                                 "{silicon: {...}, valve: {...}}")
+            if self.diode is not None or self.valve is not None:
+                raise ValueError("a switchable rectifier gives diode and valve per position")
+        elif self.positions is not None:
+            raise ValueError("positions belong to a switchable rectifier only")
+        return self
 
 
 class Load(Strict):
@@ -217,9 +250,21 @@ class Design(Strict):
 
     @model_validator(mode="after")
     def _consistent(self):
-        problems = []
         if self.transformer.build is not None:
-            problems += self._build_problems()
+            problems = self._build_problems()
+            if problems:
+                raise ValueError("; ".join(problems))
+            self._with_equivalent()
+        if self.switchable:
+            self.positions()  # each position is checked as a design of its own
+            return self
+        problems = self._problems()
+        if problems:
+            raise ValueError("; ".join(problems))
+        return self
+
+    def _problems(self):
+        problems = []
         for k, node in enumerate(self.nodes[1:], start=1):
             if node.feed is None:
                 problems.append(f"nodes.{k}.feed: node '{node.name}' needs a feed from the node "
@@ -231,18 +276,17 @@ class Design(Strict):
         if first is not None and first.inductance > 0 and self.transformer.leakage_inductance > 0:
             problems.append("transformer.leakage_inductance: must be 0 H with a choke-input first "
                             "node (commutation overlap is not modelled); fold it into the choke")
-        if problems:
-            raise ValueError("; ".join(problems))
-        if self.transformer.build is not None:
-            return self._with_equivalent()
-        return self
+        return problems
 
     def _build_problems(self):
         b = self.transformer.build
-        ct = self.rectifier.topology == "centre-tap"
-        if b.hv.centre_tapped != ct:
-            return [f"transformer.build.hv.centre_tapped: must be {str(ct).lower()} for a "
-                    f"{self.rectifier.topology} rectifier"]
+        topologies = ([p.topology for p in self.rectifier.positions.values()]
+                      if self.switchable else [self.rectifier.topology])
+        for topology in topologies:
+            ct = topology == "centre-tap"
+            if b.hv.centre_tapped != ct:
+                return [f"transformer.build.hv.centre_tapped: must be {str(ct).lower()} for a "
+                        f"{topology} rectifier"]
         return []
 
     def _with_equivalent(self):
@@ -266,6 +310,30 @@ class Design(Strict):
         if not any(abs(v - self.mains.voltage) <= 1e-6 * v for v in build.primaries):
             raise ValueError(f"transformer.build.primaries: none of them is the mains voltage "
                              f"{self.mains.voltage:g} V")
+
+    @property
+    def switchable(self) -> bool:
+        return self.rectifier.topology == "switchable"
+
+    def positions(self):
+        """[(position name, Design)]: the design as the switch sets it; [(None, self)] if fixed."""
+        if not self.switchable:
+            return [(None, self)]
+        out = []
+        for name, p in self.rectifier.positions.items():
+            rect = Rectifier.model_construct(topology=p.topology, diode=p.diode, valve=p.valve,
+                                             heater_shared=p.heater_shared, positions=None)
+            nodes = list(self.nodes)
+            if p.reservoir is not None:
+                nodes[0] = nodes[0].model_copy(update=p.reservoir.model_dump(exclude_none=True))
+            design = self.model_copy(update={"rectifier": rect, "nodes": nodes})
+            if self.transformer_design is not None:
+                object.__setattr__(design, "_built", self.transformer_design)
+            problems = design._problems()
+            if problems:
+                raise ValueError("; ".join(f"rectifier.positions.{name}: {p}" for p in problems))
+            out.append((name, design))
+        return out
 
     @property
     def transformer_design(self):

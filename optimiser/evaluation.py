@@ -398,6 +398,15 @@ def _result(design, figs, j, waves=None) -> SupplyResult:
     return SupplyResult(nodes=nodes, waveforms=waves, **scalars)
 
 
+def _fixed(design: Design) -> Design:
+    if design.switchable:
+        from .design import DesignError
+
+        raise DesignError(["rectifier: a switchable pair has two steady states; evaluate each "
+                           "position (Design.positions()) or use optimiser.assessment.assess"])
+    return design
+
+
 def evaluate(design) -> SupplyResult:
     """Periodic steady state of one supply.
 
@@ -410,7 +419,7 @@ def evaluate(design) -> SupplyResult:
     -------
     SupplyResult
     """
-    d = load_design(design)
+    d = _fixed(load_design(design))
     figs, j, batch, model, waves = _solve_all([d])[0]
     return _result(d, figs, j, waves={"time": waves.time, "batch": batch, "model": model,
                                       "waves": waves})
@@ -422,7 +431,7 @@ def evaluate_many(designs) -> pd.DataFrame:
     Columns: the scalar figures of :class:`SupplyResult`, and ``<node name>.<figure>`` for the
     node figures.
     """
-    parsed = [load_design(d) for d in designs]
+    parsed = [_fixed(load_design(d)) for d in designs]
     rows = []
     for d, (figs, j, *_rest) in zip(parsed, _solve_all(parsed)):
         row = {f: figs[f][j] for f in SCALARS}

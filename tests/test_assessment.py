@@ -141,3 +141,36 @@ def test_many_equals_one():
     assert table.ratios.loc[1, "valve.piv"] == pytest.approx(
         check(assess(VALVE, detail=False), "valve.piv").ratio, rel=1e-9)
     assert np.isnan(table.ratios.loc[0, "valve.piv"])
+
+
+def test_switchable_pair_evaluates_both_positions():
+    # Invented test case: one winding, a silicon and a valve branch with their own reservoirs.
+    from pathlib import Path
+
+    from optimiser.assessment import PairAssessment
+    from optimiser.design import DesignError, load_design
+    from optimiser.evaluation import evaluate
+
+    path = Path(__file__).parents[1] / "specs" / "demo-design-switchable.yaml"
+    pair = assess(path, detail=False)
+    assert isinstance(pair, PairAssessment) and list(pair.positions) == ["silicon", "valve"]
+    si, valve = pair.positions["silicon"], pair.positions["valve"]
+    # Source: a valve rectifier drops tens of volts where silicon drops about one, so the
+    # silicon position gives the higher B+ (common practice, no source).
+    assert si.nodes[0]["idle_voltage"] > valve.nodes[0]["idle_voltage"] + 20
+    # each position uses its own reservoir
+    assert si.steady.nodes[0].capacitor_rms_current != valve.steady.nodes[0].capacitor_rms_current
+    assert any(c.name.startswith("valve/valve.") for c in pair.checks)
+    assert pair.rectifier_stress == max(si.rectifier_stress, valve.rectifier_stress)
+    with pytest.raises(DesignError, match="switchable"):
+        evaluate(load_design(path))
+
+
+def test_switchable_needs_two_positions():
+    from optimiser.design import DesignError, load_design
+
+    d = copy.deepcopy(SILICON)
+    d["rectifier"] = {"topology": "switchable",
+                      "positions": {"only": {"topology": "bridge", "diode": "1N4007"}}}
+    with pytest.raises(DesignError, match="exactly two positions"):
+        load_design(d)
