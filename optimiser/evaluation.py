@@ -15,7 +15,8 @@ from . import ladder, rectifier, supply
 from .transients import node_outputs
 from .design import Design, load_design
 
-__all__ = ["NodeFigures", "SupplyResult", "Batch", "evaluate", "evaluate_many", "solve_batch"]
+__all__ = ["NodeFigures", "SupplyResult", "Batch", "evaluate", "evaluate_many", "solve_batch",
+           "cycle_waveforms"]
 
 #: A rectifier path of less resistance than this (winding plus feed) is taken as this. [ohm]
 MIN_PATH_RESISTANCE = 1e-3
@@ -396,6 +397,38 @@ def _result(design, figs, j, waves=None) -> SupplyResult:
         for k, n in enumerate(design.nodes))
     scalars = {f: (bool(figs[f][j]) if f == "converged" else float(figs[f][j])) for f in SCALARS}
     return SupplyResult(nodes=nodes, waveforms=waves, **scalars)
+
+
+def cycle_waveforms(result: SupplyResult) -> dict:
+    """One whole mains cycle of a steady state, for plots.
+
+    The solver works over half a cycle with the conducting path in turn; this unfolds it: the
+    other element of the pair conducts the same current in the second half.
+
+    Returns
+    -------
+    dict of ndarray
+        ``time`` [s]; ``secondary_voltage`` (open-circuit EMF of the winding, or of one half for
+        centre-tap) [V]; ``node_voltage`` (T, N) [V]; ``element_current_a`` and
+        ``element_current_b`` (one rectifying element of each path) [A]; ``node_names``.
+    """
+    w = result.waveforms
+    waves, model, batch, j = w["waves"], w["model"], w["batch"], w.get("index", 0)
+    loads = batch.values.load_current[j:j + 1]
+    v = node_outputs(model.node_voltage, waves.state[j:j + 1], waves.drive[j:j + 1], loads)[0]
+    half = waves.time[-1] - waves.time[0]
+    t = np.concatenate([waves.time, waves.time[1:] + half])
+    peak = batch.peak[j]
+    current = waves.current[j]
+    zeros = np.zeros_like(current)
+    return {
+        "time": t,
+        "secondary_voltage": peak * np.sin(2 * np.pi * batch.frequency * t),
+        "node_voltage": np.concatenate([v, v[1:]], axis=0),
+        "element_current_a": np.concatenate([current, zeros[1:]]),
+        "element_current_b": np.concatenate([zeros, current[1:]]),
+        "node_names": [n.name for n in result.nodes],
+    }
 
 
 def _fixed(design: Design) -> Design:
