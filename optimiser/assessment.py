@@ -25,7 +25,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from . import parts, ratings, transients
+from . import parts, ratings, supply, transients
 from .design import Design, load_design
 from .evaluation import Batch, SupplyResult, _groups, _result, figures, solve_batch
 
@@ -246,9 +246,7 @@ def _assess_group(designs, detail):
     life = _life(designs, valves, f)
 
     rectifier_start = np.array([_rectifier_start(d, v) for d, v in zip(designs, valves)])
-    curves = None
-    if detail:
-        curves = _detail_curves(designs, batches, solved, sag, rectifier_start)
+    curves = _detail_curves(designs, sag, rectifier_start) if detail else None
 
     out = []
     for j, d in enumerate(designs):
@@ -286,10 +284,7 @@ def _assess_group(designs, detail):
             "rectifier_start": float(rectifier_start[j]),
             "load_start": float(d.conditions.output_valve_warm_up),
         }
-        design_curves = None
-        if curves is not None:
-            design_curves = {key: (value if np.ndim(value) <= 1 else value[j])
-                             for key, value in curves.items()}
+        design_curves = curves[j] if curves is not None else None
         out.append(Assessment(
             steady=_result(d, f["nominal_full"], j, waves=_waves(solved["nominal_full"], j)),
             idle=_result(d, f["nominal_idle"], j),
@@ -476,31 +471,59 @@ def _life(designs, valves, f):
     return out
 
 
-def _detail_curves(designs, batches, solved, sag, rectifier_start):
-    """Arrays for plots: the sag response and the switch-on trajectory at nominal mains."""
-    freq = designs[0].mains.frequency
-    b_nom = Batch.from_designs(designs, 1.0, 1.0, "none")
+def _detail_curves(designs, sag, rectifier_start):
+    """Arrays for plots, per design: the sag response and the switch-on trajectory.
+
+    The trajectory at nominal mains: nothing until the rectifier conducts (silicon at once, a
+    valve after its warm-up), the charge-up with the output valves cold, the idle load once they
+    have warmed up, then the idle steady state to the end of the span.
+    """
     from .ladder import state_space
 
-    m_nom = state_space(b_nom.structure, b_nom.values)
-    load_start = np.array([d.conditions.output_valve_warm_up for d in designs])
-    # charge-up with the valves cold, then the idle load switched in
-    t1, v1 = transients.charge_up(m_nom, b_nom.elements, b_nom.peak, freq,
-                                  b_nom.values.load_current, CHARGE_UP_TIME * 2)
-    idle = solved["nominal_idle"]
-    steps = transients.TRANSIENT_STEPS
-    v1m = transients.half_cycle_means(v1, steps)
-    t1m = (np.arange(v1m.shape[1]) + 0.5) * (0.5 / freq)
-    return {
-        "sag_time": sag.time,
-        "sag_voltage": sag.voltage,
-        "charge_time": t1m,
-        "charge_voltage": v1m,
-        "rectifier_start": rectifier_start,
-        "load_start": load_start,
-        "idle_voltage": idle[3]["dc_voltage"],
-        "trajectory_span": np.array(TRAJECTORY_SPAN),
-    }
+    out = []
+    for j, d in enumerate(designs):
+        freq = d.mains.frequency
+        half = 0.5 / freq
+        steps = transients.TRANSIENT_STEPS
+        t_rect = rectifier_start[j]
+        t_load = d.conditions.output_valve_warm_up
+        cold = t_load > t_rect
+        first = Batch.from_designs([d], 1.0, 1.0, "none" if cold else "idle")
+        m1 = state_space(first.structure, first.values)
+        span_a = min(CHARGE_UP_TIME * 2, t_load - t_rect) if cold else CHARGE_UP_TIME * 2
+        n_a = max(1, int(np.ceil(span_a / half)))
+        run_a = supply.step_response(m1, first.elements, first.peak, freq,
+                                     first.values.load_current, np.zeros((1, m1.A.shape[1])),
+                                     np.zeros(1), n_a * half, steps_per_half_cycle=steps)
+        va = transients.half_cycle_means(transients.node_outputs(
+            m1.node_voltage, run_a.state, run_a.drive, first.values.load_current), steps)[0]
+        times = [np.array([0.0, t_rect]), t_rect + (np.arange(va.shape[0]) + 0.5) * half]
+        volts = [np.zeros((2, va.shape[1])), va]
+        if cold:
+            idle = Batch.from_designs([d], 1.0, 1.0, "idle")
+            m2 = state_space(idle.structure, idle.values)
+            n_b = int(np.ceil(CHARGE_UP_TIME * 2 / half))
+            run_b = supply.step_response(m2, idle.elements, idle.peak, freq,
+                                         idle.values.load_current, run_a.state[:, -1],
+                                         run_a.drive[:, -1], n_b * half,
+                                         steps_per_half_cycle=steps, start_time=n_a * half)
+            vb = transients.half_cycle_means(transients.node_outputs(
+                m2.node_voltage, run_b.state, run_b.drive, idle.values.load_current), steps)[0]
+            start_b = max(t_load, t_rect + n_a * half)
+            times += [np.array([start_b]), start_b + (np.arange(vb.shape[0]) + 0.5) * half]
+            volts += [va[-1:], vb]
+        end = max(TRAJECTORY_SPAN, times[-1][-1])
+        times.append(np.array([end]))
+        volts.append(volts[-1][-1:])
+        out.append({
+            "sag_time": sag.time,
+            "sag_voltage": sag.voltage[j],
+            "switch_on_time": np.concatenate(times),
+            "switch_on_voltage": np.concatenate(volts, axis=0),
+            "rectifier_start": float(t_rect),
+            "load_start": float(t_load),
+        })
+    return out
 
 
 def assess_many(designs, *, detail=False) -> AssessmentTable:
