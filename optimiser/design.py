@@ -16,11 +16,16 @@ from pydantic import Field, ValidationError, field_validator, model_validator
 from .schema import (
     Capacitance,
     Current,
+    Fraction,
     Frequency,
     Inductance,
     Perveance,
+    Power,
     Resistance,
     Strict,
+    Temperature,
+    TemperatureRise,
+    Time,
     Voltage,
 )
 
@@ -35,6 +40,7 @@ __all__ = [
     "Feed",
     "Node",
     "Design",
+    "Conditions",
     "load_design",
     "read_yaml",
     "validate",
@@ -63,11 +69,30 @@ class Mains(Strict):
 
 
 class EquivalentTransformer(Strict):
-    """The transformer as the rectifier sees it: an open-circuit EMF behind R and L."""
+    """The transformer as the rectifier sees it: an open-circuit EMF behind R and L.
 
-    secondary_voltage: Annotated[Voltage, Positive]
-    secondary_resistance: Annotated[Resistance, NonNegative]
+    Either give the equivalent directly (secondary_voltage, secondary_resistance, optionally
+    leakage_inductance), or give a physical ``build`` (see
+    :class:`optimiser.transformer.TransformerBuild`): the equivalent is then computed from it.
+    """
+
+    secondary_voltage: Optional[Annotated[Voltage, Positive]] = None
+    secondary_resistance: Optional[Annotated[Resistance, NonNegative]] = None
     leakage_inductance: Annotated[Inductance, NonNegative] = 0.0
+    #: RMS current the HV winding is rated for (per half-winding for centre-tap)
+    rated_current: Optional[Annotated[Current, Positive]] = None
+    build: Optional["TransformerBuild"] = None
+
+    @model_validator(mode="after")
+    def _equivalent_or_build(self):
+        given = self.secondary_voltage is not None and self.secondary_resistance is not None
+        if self.build is None and not given:
+            raise ValueError("give secondary_voltage and secondary_resistance, or a build")
+        if self.build is not None and (self.secondary_voltage is not None
+                                       or self.secondary_resistance is not None):
+            raise ValueError("give either the equivalent (secondary_voltage, "
+                             "secondary_resistance) or a build, not both")
+        return self
 
 
 class DiodeModel(Strict):
@@ -84,10 +109,46 @@ class ValveModel(Strict):
     perveance: Annotated[Perveance, Positive]
 
 
-class Rectifier(Strict):
+class Reservoir(Strict):
+    """A switchable position's own reservoir capacitor (replaces the first node's)."""
+
+    capacitance: Annotated[Capacitance, Positive]
+    esr: Annotated[Resistance, NonNegative] = 0.0
+    rated_voltage: Optional[Annotated[Voltage, Positive]] = None
+    capacitor_series: Optional[str] = None
+
+
+class Position(Strict):
+    """One branch of a switchable pair: its rectifier and, optionally, its own reservoir."""
+
     topology: Literal["bridge", "centre-tap", "hybrid-bridge"]
     diode: Optional[Union[DiodeModel, str]] = None
     valve: Optional[Union[ValveModel, str]] = None
+    heater_shared: bool = False
+    reservoir: Optional[Reservoir] = None
+
+
+class Rectifier(Strict):
+    topology: Literal["bridge", "centre-tap", "hybrid-bridge", "switchable"]
+    diode: Optional[Union[DiodeModel, str]] = None
+    valve: Optional[Union[ValveModel, str]] = None
+    #: an indirectly heated rectifier valve whose heater shares a winding held near chassis
+    #: potential with other valves (its cathode then sits at B+ above its heater)
+    heater_shared: bool = False
+    #: for ``switchable``: the two branches the switch selects, by name
+    positions: Optional[dict[str, Position]] = None
+
+    @model_validator(mode="after")
+    def _positions(self):
+        if self.topology == "switchable":
+            if not self.positions or len(self.positions) != 2:
+                raise ValueError("a switchable rectifier needs exactly two positions, e.g. "
+                                 "{silicon: {...}, valve: {...}}")
+            if self.diode is not None or self.valve is not None:
+                raise ValueError("a switchable rectifier gives diode and valve per position")
+        elif self.positions is not None:
+            raise ValueError("positions belong to a switchable rectifier only")
+        return self
 
 
 class Load(Strict):
@@ -115,6 +176,10 @@ class Feed(Strict):
 
     resistance: Annotated[Resistance, NonNegative] = 0.0
     inductance: Annotated[Inductance, NonNegative] = 0.0
+    #: a dropping resistor's power rating
+    power_rating: Optional[Annotated[Power, Positive]] = None
+    #: a choke's DC current rating
+    current_rating: Optional[Annotated[Current, Positive]] = None
 
     @model_validator(mode="after")
     def _not_a_short(self):
@@ -129,6 +194,39 @@ class Node(Strict):
     esr: Annotated[Resistance, NonNegative] = 0.0
     feed: Optional[Feed] = None
     load: Optional[Load] = None
+    #: the capacitor's rated DC voltage, and the catalogue series it comes from
+    rated_voltage: Optional[Annotated[Voltage, Positive]] = None
+    capacitor_series: Optional[str] = None
+    #: bleeder resistor across this node's capacitor, and its power rating
+    bleeder: Optional[Annotated[Resistance, Positive]] = None
+    bleeder_power_rating: Optional[Annotated[Power, Positive]] = None
+
+
+class Conditions(Strict):
+    """Where and how the supply must survive; every default is common practice, no source."""
+
+    mains_low: Annotated[Fraction, Field(ge=0, lt=0.5)] = 0.10
+    mains_high: Annotated[Fraction, Field(ge=0, lt=0.5)] = 0.10
+    #: the winder's tolerance on the secondary voltage
+    transformer_tolerance: Annotated[Fraction, Field(ge=0, lt=0.3)] = 0.05
+    #: capacitor tolerance; the catalogue series' own when not given
+    capacitor_minus: Optional[Annotated[Fraction, Field(ge=0, lt=1)]] = None
+    capacitor_plus: Optional[Annotated[Fraction, Field(ge=0, lt=2)]] = None
+    ambient: Temperature = 40.0
+    #: capacitor self-heating at its rated ripple current
+    ripple_self_heating: Annotated[TemperatureRise, Field(gt=0)] = 5.0
+    #: time the output valves take to start drawing current after switch-on
+    output_valve_warm_up: Annotated[Time, Field(ge=0)] = 15.0
+    #: warm-up of a valve rectifier with no figure in its data
+    rectifier_warm_up: Annotated[Time, Field(ge=0)] = 10.0
+    #: margin asked of silicon PIV ratings over the worst reverse voltage
+    silicon_piv_margin: Annotated[Fraction, Field(ge=0, lt=2)] = 0.20
+    safe_voltage: Annotated[Voltage, Positive] = 60.0
+    discharge_time_limit: Annotated[Time, Positive] = 60.0
+    #: the sag test: full power for this long, then idle for this long
+    sag_hold: Annotated[Time, Positive] = 0.6
+    sag_release: Annotated[Time, Positive] = 0.8
+    capacitor_series: str = "generic-105C-radial"
 
 
 class Design(Strict):
@@ -138,6 +236,7 @@ class Design(Strict):
     transformer: EquivalentTransformer
     rectifier: Rectifier
     nodes: list[Node] = Field(min_length=1)
+    conditions: Conditions = Conditions()
 
     @field_validator("nodes")
     @classmethod
@@ -151,6 +250,20 @@ class Design(Strict):
 
     @model_validator(mode="after")
     def _consistent(self):
+        if self.transformer.build is not None:
+            problems = self._build_problems()
+            if problems:
+                raise ValueError("; ".join(problems))
+            self._with_equivalent()
+        if self.switchable:
+            self.positions()  # each position is checked as a design of its own
+            return self
+        problems = self._problems()
+        if problems:
+            raise ValueError("; ".join(problems))
+        return self
+
+    def _problems(self):
         problems = []
         for k, node in enumerate(self.nodes[1:], start=1):
             if node.feed is None:
@@ -163,9 +276,69 @@ class Design(Strict):
         if first is not None and first.inductance > 0 and self.transformer.leakage_inductance > 0:
             problems.append("transformer.leakage_inductance: must be 0 H with a choke-input first "
                             "node (commutation overlap is not modelled); fold it into the choke")
-        if problems:
-            raise ValueError("; ".join(problems))
+        return problems
+
+    def _build_problems(self):
+        b = self.transformer.build
+        topologies = ([p.topology for p in self.rectifier.positions.values()]
+                      if self.switchable else [self.rectifier.topology])
+        for topology in topologies:
+            ct = topology == "centre-tap"
+            if b.hv.centre_tapped != ct:
+                return [f"transformer.build.hv.centre_tapped: must be {str(ct).lower()} for a "
+                        f"{topology} rectifier"]
+        return []
+
+    def _with_equivalent(self):
+        """A copy whose equivalent source comes from the physical build."""
+        from .transformer import build_from_block
+
+        t = self.transformer
+        built = build_from_block(t.build, self.mains.frequency * 1.0)
+        self._check_mains(t.build)
+        equivalent = t.model_copy(update={
+            "secondary_voltage": float(built.hv_open_circuit_voltage),
+            "secondary_resistance": float(built.hv_series_resistance),
+            "leakage_inductance": float(built.hv_leakage_inductance),
+            "rated_current": t.rated_current or t.build.hv.current,
+        })
+        object.__setattr__(self, "transformer", equivalent)
+        object.__setattr__(self, "_built", built)
         return self
+
+    def _check_mains(self, build):
+        if not any(abs(v - self.mains.voltage) <= 1e-6 * v for v in build.primaries):
+            raise ValueError(f"transformer.build.primaries: none of them is the mains voltage "
+                             f"{self.mains.voltage:g} V")
+
+    @property
+    def switchable(self) -> bool:
+        return self.rectifier.topology == "switchable"
+
+    def positions(self):
+        """[(position name, Design)]: the design as the switch sets it; [(None, self)] if fixed."""
+        if not self.switchable:
+            return [(None, self)]
+        out = []
+        for name, p in self.rectifier.positions.items():
+            rect = Rectifier.model_construct(topology=p.topology, diode=p.diode, valve=p.valve,
+                                             heater_shared=p.heater_shared, positions=None)
+            nodes = list(self.nodes)
+            if p.reservoir is not None:
+                nodes[0] = nodes[0].model_copy(update=p.reservoir.model_dump(exclude_none=True))
+            design = self.model_copy(update={"rectifier": rect, "nodes": nodes})
+            if self.transformer_design is not None:
+                object.__setattr__(design, "_built", self.transformer_design)
+            problems = design._problems()
+            if problems:
+                raise ValueError("; ".join(f"rectifier.positions.{name}: {p}" for p in problems))
+            out.append((name, design))
+        return out
+
+    @property
+    def transformer_design(self):
+        """The physical transformer (a TransformerDesign) when the design gives a build."""
+        return getattr(self, "_built", None)
 
     @property
     def valve_path(self) -> bool:
@@ -264,12 +437,11 @@ def _message(error) -> str:
 def validation_problems(exc: ValidationError, node=None, source="design") -> list[str]:
     """One readable line per pydantic error, with file:line:col when a node tree is given."""
     errors = exc.errors()
-    # for "part name or parameter block" unions, drop the "should be a string" noise when the
-    # block itself has errors
-    block_errors = {tuple(e["loc"][:-2]) for e in errors if len(e["loc"]) >= 2}
     lines = []
     for e in errors:
         loc = tuple(e["loc"])
+        # "part name or parameter block": drop the "should be a string" noise when the block
+        # itself has errors
         if e["type"] == "string_type" and loc[-1] == "str" and any(
                 other[: len(loc) - 1] == loc[:-1] and other != loc for other in
                 (tuple(x["loc"]) for x in errors)):
@@ -281,7 +453,6 @@ def validation_problems(exc: ValidationError, node=None, source="design") -> lis
         text = f"{where}: {dotted}: {_message(e)}" if dotted else f"{where}: {_message(e)}"
         if text not in lines:
             lines.append(text)
-    del block_errors
     return lines
 
 
@@ -301,3 +472,9 @@ def load_design(source) -> Design:
         return validate(Design, source)
     data, node = read_yaml(source)
     return validate(Design, data, node, str(source))
+
+
+from .transformer import TransformerBuild  # noqa: E402  (the build block refers back to schema)
+
+EquivalentTransformer.model_rebuild()
+Design.model_rebuild()

@@ -12,12 +12,17 @@ import numpy as np
 import pandas as pd
 
 from . import ladder, rectifier, supply
+from .transients import node_outputs
 from .design import Design, load_design
 
-__all__ = ["NodeFigures", "SupplyResult", "Batch", "evaluate", "evaluate_many", "solve_batch"]
+__all__ = ["NodeFigures", "SupplyResult", "Batch", "evaluate", "evaluate_many", "solve_batch",
+           "cycle_waveforms"]
 
 #: A rectifier path of less resistance than this (winding plus feed) is taken as this. [ohm]
 MIN_PATH_RESISTANCE = 1e-3
+#: Leakage of every capacitor, so a supply with no load at all (switch-on, before the valves
+#: conduct) still has one periodic steady state. 1 nS = 1 Gohm, far below real leakage. [S]
+LEAKAGE_CONDUCTANCE = 1e-9
 #: Steps per half mains cycle in the steady-state solution (see tests/test_supply.py for the
 #: step-size check against a tight reference).
 STEPS_PER_HALF_CYCLE = 256
@@ -123,27 +128,31 @@ class Batch:
         )
 
     @classmethod
-    def from_designs(cls, designs, mains_scale=None, loads="nominal"):
+    def from_designs(cls, designs, mains_scale=1.0, capacitance_scale=1.0, loads="full"):
         """Arrays for designs that share one ladder shape.
 
         Parameters
         ----------
         designs : list of Design
-        mains_scale : array-like, optional
-            Mains voltage over its nominal value, per design. [-]
-        loads : {"nominal", "idle", "full"}
-            Which current of an idle/full-power load to use; "nominal" takes full power.
+        mains_scale : float or array-like
+            Source EMF over its nominal value, per design (mains and winding tolerance). [-]
+        capacitance_scale : float or array-like
+            Every capacitor over its nominal value, per design. [-]
+        loads : {"full", "idle", "none"}
+            Which current of an idle/full-power load to use. "none": the valves draw nothing
+            yet (switch-on); resistive loads and bleeders stay.
         """
         structure = cls.structure_of(designs[0])
         n = structure.n_nodes
         count = len(designs)
         frequency = designs[0].mains.frequency
-        scale = np.ones(count) if mains_scale is None else np.asarray(mains_scale, float)
+        scale = np.broadcast_to(np.asarray(mains_scale, float), (count,))
+        c_scale = np.broadcast_to(np.asarray(capacitance_scale, float), (count,))
         cap = np.empty((count, n))
         esr = np.zeros((count, n))
         feed_r = np.zeros((count, n))
         feed_l = np.zeros((count, n))
-        g_load = np.zeros((count, n))
+        g_load = np.full((count, n), LEAKAGE_CONDUCTANCE)
         i_load = np.zeros((count, n))
         r_w = np.empty(count)
         l_w = np.empty(count)
@@ -162,15 +171,19 @@ class Batch:
             r_w[b] = t.secondary_resistance
             l_w[b] = t.leakage_inductance
             for k, node in enumerate(d.nodes):
-                cap[b, k] = node.capacitance
+                cap[b, k] = node.capacitance * c_scale[b]
                 esr[b, k] = node.esr
+                if node.bleeder is not None:
+                    g_load[b, k] += 1.0 / node.bleeder
                 if node.feed is not None:
                     feed_r[b, k] = node.feed.resistance
                     feed_l[b, k] = node.feed.inductance
                 if node.load is not None:
                     ld = node.load
                     if ld.resistance is not None:
-                        g_load[b, k] = 1.0 / ld.resistance
+                        g_load[b, k] += 1.0 / ld.resistance
+                    elif loads == "none":
+                        pass
                     elif ld.current is not None:
                         i_load[b, k] = ld.current
                     else:
@@ -286,15 +299,11 @@ def figures(batch: Batch, model: ladder.StateSpace, waves: supply.Waveforms) -> 
     drop = waves.drop[:, :-1]
     src = waves.source[:, :-1]
 
-    def output(maps):
-        c, d = maps
-        return (np.einsum("bkn,btn->btk", c, xs) + d[:, None, :, 0] * es[:, :, None]
-                + np.einsum("bkm,bm->bk", d[:, :, 1:], loads)[:, None, :])
-
-    node_v = output(model.node_voltage)
-    cap_i = output(model.capacitor_current)
-    feed_i = output(model.feed_current)
+    node_v = node_outputs(model.node_voltage, xs, es, loads)
+    cap_i = node_outputs(model.capacitor_current, xs, es, loads)
+    feed_i = node_outputs(model.feed_current, xs, es, loads)
     dc = node_v.mean(axis=1)
+    node_peak = node_v.max(axis=1)
     ripple_pp = node_v.max(axis=1) - node_v.min(axis=1)
     ripple_rms = node_v.std(axis=1)
     cap_rms = np.sqrt((cap_i ** 2).mean(axis=1))
@@ -335,6 +344,9 @@ def figures(batch: Batch, model: ladder.StateSpace, waves: supply.Waveforms) -> 
         "ripple_pp": ripple_pp,
         "ripple_rms": ripple_rms,
         "capacitor_rms_current": cap_rms,
+        "peak_voltage": node_peak,
+        "feed_rms_current": np.sqrt((feed_i ** 2).mean(axis=1)),
+        "feed_dc_current": feed_i.mean(axis=1),
         "rectifier_peak_current": peak_i,
         "rectifier_average_current": 0.5 * i_mean,
         "rectifier_rms_current": np.sqrt(0.5 * i_sq),
@@ -387,6 +399,47 @@ def _result(design, figs, j, waves=None) -> SupplyResult:
     return SupplyResult(nodes=nodes, waveforms=waves, **scalars)
 
 
+def cycle_waveforms(result: SupplyResult) -> dict:
+    """One whole mains cycle of a steady state, for plots.
+
+    The solver works over half a cycle with the conducting path in turn; this unfolds it: the
+    other element of the pair conducts the same current in the second half.
+
+    Returns
+    -------
+    dict of ndarray
+        ``time`` [s]; ``secondary_voltage`` (open-circuit EMF of the winding, or of one half for
+        centre-tap) [V]; ``node_voltage`` (T, N) [V]; ``element_current_a`` and
+        ``element_current_b`` (one rectifying element of each path) [A]; ``node_names``.
+    """
+    w = result.waveforms
+    waves, model, batch, j = w["waves"], w["model"], w["batch"], w.get("index", 0)
+    loads = batch.values.load_current[j:j + 1]
+    v = node_outputs(model.node_voltage, waves.state[j:j + 1], waves.drive[j:j + 1], loads)[0]
+    half = waves.time[-1] - waves.time[0]
+    t = np.concatenate([waves.time, waves.time[1:] + half])
+    peak = batch.peak[j]
+    current = waves.current[j]
+    zeros = np.zeros_like(current)
+    return {
+        "time": t,
+        "secondary_voltage": peak * np.sin(2 * np.pi * batch.frequency * t),
+        "node_voltage": np.concatenate([v, v[1:]], axis=0),
+        "element_current_a": np.concatenate([current, zeros[1:]]),
+        "element_current_b": np.concatenate([zeros, current[1:]]),
+        "node_names": [n.name for n in result.nodes],
+    }
+
+
+def _fixed(design: Design) -> Design:
+    if design.switchable:
+        from .design import DesignError
+
+        raise DesignError(["rectifier: a switchable pair has two steady states; evaluate each "
+                           "position (Design.positions()) or use optimiser.assessment.assess"])
+    return design
+
+
 def evaluate(design) -> SupplyResult:
     """Periodic steady state of one supply.
 
@@ -399,7 +452,7 @@ def evaluate(design) -> SupplyResult:
     -------
     SupplyResult
     """
-    d = load_design(design)
+    d = _fixed(load_design(design))
     figs, j, batch, model, waves = _solve_all([d])[0]
     return _result(d, figs, j, waves={"time": waves.time, "batch": batch, "model": model,
                                       "waves": waves})
@@ -411,7 +464,7 @@ def evaluate_many(designs) -> pd.DataFrame:
     Columns: the scalar figures of :class:`SupplyResult`, and ``<node name>.<figure>`` for the
     node figures.
     """
-    parsed = [load_design(d) for d in designs]
+    parsed = [_fixed(load_design(d)) for d in designs]
     rows = []
     for d, (figs, j, *_rest) in zip(parsed, _solve_all(parsed)):
         row = {f: figs[f][j] for f in SCALARS}

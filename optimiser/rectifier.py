@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numba
 import numpy as np
 
 __all__ = [
@@ -19,6 +20,7 @@ __all__ = [
     "child_langmuir_voltage",
     "child_langmuir_current",
     "path_drop",
+    "path_step",
     "solve_path",
     "conduction_half_angle",
     "infinite_capacitance_output",
@@ -148,87 +150,108 @@ def path_drop(current, elements: PathElements):
     return drop, slope
 
 
-def solve_path(available, coupling, elements: PathElements, state_guess, *, tol=1e-12,
-               max_iter=60):
-    """Solve one time step of the rectifier's complementarity problem, vectorised.
+@numba.njit(cache=True)
+def path_step(q, beta, silicon_count, valve_count, saturation_current, emission_coefficient,
+              series_resistance, perveance, guess):
+    """One design's rectifier complementarity problem at one time step (compiled scalar code).
 
     The linear network says the path current at the end of the step is ``i = q - beta*d`` where
-    ``d`` is the path's forward drop. The elements say ``d = V(i)`` while ``i > 0``; when ``q <= 0``
-    the path blocks: ``i = 0`` and ``d = q/beta`` (a reverse voltage).
+    ``d`` is the path's forward drop. The elements say ``d = V(i)`` while ``i > 0``; when
+    ``q <= 0`` the path blocks: ``i = 0`` and ``d = q/beta`` (a reverse voltage).
 
     ``i + beta*V(i) = q`` is solved by Newton's method in a variable that makes it convex and
     nearly linear: the junction voltage for an all-silicon path (i = IS*(exp(v/(N*Vt)) - 1)),
-    the cube root of the current for a path with a valve plate (i = K*w^3). Iterates are kept in
-    the bracket [0, z(i=q)] and approach the root from above, where Newton's method on a convex
-    increasing function converges monotonically.
+    the cube root of the current for a path with a valve plate (i = K*w^3). Iterates stay in the
+    bracket [0, z(i=q)]; from below the root a Newton step overshoots above it, and from above
+    Newton's method on a convex increasing function converges monotonically.
 
     Parameters
     ----------
-    available : ndarray
-        q, the path current the network would carry with zero drop. [A]
-    coupling : ndarray
-        beta > 0, the current lost per volt of drop. [A/V]
-    elements : PathElements
-    state_guess : ndarray
-        The iteration variable from the previous step (see ``Returns``), or NaN.
+    q : float
+        Path current the network would carry with zero drop. [A]
+    beta : float
+        Current lost per volt of drop, > 0. [A/V]
+    silicon_count, valve_count, saturation_current, emission_coefficient, series_resistance,
+    perveance : float
+        The path's elements (see :class:`PathElements`).
+    guess : float
+        The iteration variable from the previous step, or NaN.
 
     Returns
     -------
-    (current, drop, ddrop_dq, state) : tuple of ndarray
+    (current, drop, ddrop_dq, state) : floats
         Path current [A], drop [V], the sensitivity dd/dq [V/A] used by the shooting Jacobian,
-        and the iteration variable to warm-start the next step.
+        and the iteration variable to warm-start the next step (NaN when blocked).
     """
-    q = np.asarray(available, dtype=float)
-    beta = np.asarray(coupling, dtype=float)
-    conducting = q > 0
-    e = elements
-    qpos = np.where(conducting, q, 1e-30)
-    nvt = e.emission_coefficient * THERMAL_VOLTAGE
-    with_valve = bool(np.any(e.valve_count > 0))
-    if with_valve and not np.all(e.valve_count > 0):
-        raise ValueError("solve_path takes paths of one kind: all with a valve plate or none")
-    if with_valve:
-        k = e.perveance
-        n_si = e.silicon_count
-        z_hi = np.cbrt(qpos / k)
-
-        def g_and_slope(z):
-            i = k * z ** 3
-            di = 3 * k * z * z
-            v = z * z + n_si * (nvt * np.log1p(i / e.saturation_current) + e.series_resistance * i)
-            dv = 2 * z + n_si * (nvt / (e.saturation_current + i) + e.series_resistance) * di
-            return i + beta * v - qpos, di + beta * dv
+    if q <= 0.0:
+        return 0.0, q / beta, 1.0 / beta, np.nan
+    nvt = emission_coefficient * THERMAL_VOLTAGE
+    valve = valve_count > 0
+    if valve:
+        z_hi = np.cbrt(q / perveance)
     else:
-        n_si = e.silicon_count
-        rs = e.series_resistance
-        z_hi = nvt * np.log1p(qpos / e.saturation_current)
-
-        def g_and_slope(z):
+        z_hi = nvt * np.log1p(q / saturation_current)
+    z = z_hi
+    if np.isfinite(guess) and 0.0 < guess < z_hi:
+        z = guess
+    for _ in range(80):
+        if valve:
+            i = perveance * z ** 3
+            di = 3.0 * perveance * z * z
+            v = z * z + silicon_count * (nvt * np.log1p(i / saturation_current)
+                                         + series_resistance * i)
+            dv = 2.0 * z + silicon_count * (nvt / (saturation_current + i)
+                                            + series_resistance) * di
+            g = i + beta * v - q
+            slope = di + beta * dv
+        else:
             x = np.exp(z / nvt)
-            i = e.saturation_current * (x - 1.0)
-            di = e.saturation_current * x / nvt
-            v = n_si * (z + rs * i)
-            return i + beta * v - qpos, di + beta * n_si * (1.0 + rs * di)
-    z = np.where(np.isfinite(state_guess) & (state_guess > 0), state_guess, z_hi)
-    z = np.minimum(z, z_hi)
-    for _ in range(max_iter):
-        g, slope = g_and_slope(z)
-        step = g / np.maximum(slope, 1e-300)
-        z_new = np.clip(z - step, 0.0, z_hi)
-        # from below the root a Newton step overshoots above it; from above it converges
-        done = np.abs(z_new - z) <= tol * (1.0 + z_hi)
+            i = saturation_current * (x - 1.0)
+            di = saturation_current * x / nvt
+            g = i + beta * silicon_count * (z + series_resistance * i) - q
+            slope = di + beta * silicon_count * (1.0 + series_resistance * di)
+        z_new = z - g / max(slope, 1e-300)
+        z_new = min(max(z_new, 0.0), z_hi)
+        done = abs(z_new - z) <= 1e-13 * (1.0 + z_hi)
         z = z_new
-        if np.all(done | ~conducting):
+        if done:
             break
-    if with_valve:
-        i = e.perveance * z ** 3
+    if valve:
+        i = perveance * z ** 3
     else:
-        i = e.saturation_current * np.expm1(z / nvt)
-    i = np.where(conducting, i, 0.0)
-    d_on, r = path_drop(i, elements)
-    d = np.where(conducting, d_on, q / beta)
-    sensitivity = np.where(conducting, r / (1.0 + beta * r), 1.0 / beta)
-    return i, d, sensitivity, np.where(conducting, z, np.nan)
+        i = saturation_current * np.expm1(z / nvt)
+    i = max(i, 1e-30)
+    r_si = nvt / (saturation_current + i) + series_resistance
+    d = silicon_count * (nvt * np.log1p(i / saturation_current) + series_resistance * i)
+    r = silicon_count * r_si
+    if valve:
+        w = np.cbrt(i / perveance)
+        d += valve_count * w * w
+        r += valve_count * (2.0 / 3.0) / (perveance * w)
+    return i, d, r / (1.0 + beta * r), z
+
+
+@numba.njit(cache=True)
+def _solve_batch(q, beta, si, vv, isat, n, rs, k, guess):
+    count = q.shape[0]
+    i = np.empty(count)
+    d = np.empty(count)
+    s = np.empty(count)
+    z = np.empty(count)
+    for b in range(count):
+        i[b], d[b], s[b], z[b] = path_step(q[b], beta[b], si[b], vv[b], isat[b], n[b], rs[b],
+                                           k[b], guess[b])
+    return i, d, s, z
+
+
+def solve_path(available, coupling, elements: PathElements, state_guess):
+    """:func:`path_step` over a batch of designs; arrays in, arrays out (same returns)."""
+    e = elements
+    q = np.ascontiguousarray(available, dtype=float)
+    arrays = [np.broadcast_to(np.asarray(a, dtype=float), q.shape).copy() for a in (
+        coupling, e.silicon_count, e.valve_count, e.saturation_current, e.emission_coefficient,
+        e.series_resistance, e.perveance, state_guess)]
+    return _solve_batch(q, *arrays)
 
 
 def conduction_half_angle(rs_over_rl, pulses=2):

@@ -14,9 +14,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numba
 import numpy as np
 from .ladder import StateSpace
-from .rectifier import PathElements, solve_path
+from .rectifier import PathElements, path_step
 
 __all__ = ["Discretisation", "discretise", "Waveforms", "periodic_steady_state", "step_response"]
 
@@ -146,13 +147,92 @@ def _output_row(model: StateSpace):
     return c[:, 0], d[:, 0]
 
 
+@numba.njit(cache=True)
+def _march_kernel(phi, ga, gb, kappa, c_row, beta, d_e, load_feed, peak, sines, x0, e0,
+                  si, vv, isat, nem, rs, perv, want_jac, xs, es, iss, ds, jac):
+    """Compiled per-design loop of :func:`_march` (see there); fills the output arrays."""
+    batch, n = x0.shape
+    steps = sines.shape[0] - 1
+    x = np.empty(n)
+    y = np.empty(n)
+    jx = np.empty((n, n + 1))
+    dy = np.empty((n, n + 1))
+    je = np.empty(n + 1)
+    dq = np.empty(n + 1)
+    for b in range(batch):
+        for r in range(n):
+            x[r] = x0[b, r]
+            xs[b, 0, r] = x[r]
+        e = e0[b]
+        es[b, 0] = e
+        ds[b, 0] = peak[b] * sines[0] - e
+        i0 = d_e[b] * e + load_feed[b]
+        for r in range(n):
+            i0 += c_row[b, r] * x[r]
+        iss[b, 0] = max(i0, 0.0)
+        z = np.nan
+        if want_jac:
+            jx[:, :] = 0.0
+            for r in range(n):
+                jx[r, r] = 1.0
+            je[:] = 0.0
+            je[n] = 1.0
+        for k in range(1, steps + 1):
+            src = peak[b] * sines[k]
+            for r in range(n):
+                acc = ga[b, r] * e + gb[b, r] * src + kappa[b, r]
+                for c in range(n):
+                    acc += phi[b, r, c] * x[c]
+                y[r] = acc
+            q = d_e[b] * src + load_feed[b]
+            for r in range(n):
+                q += c_row[b, r] * y[r]
+            i, d, sens, z = path_step(q, beta[b], si[b], vv[b], isat[b], nem[b], rs[b], perv[b],
+                                      z)
+            for r in range(n):
+                x[r] = y[r] - gb[b, r] * d
+            if want_jac:
+                for r in range(n):
+                    for c in range(n + 1):
+                        acc = ga[b, r] * je[c]
+                        for m in range(n):
+                            acc += phi[b, r, m] * jx[m, c]
+                        dy[r, c] = acc
+                for c in range(n + 1):
+                    acc = 0.0
+                    for r in range(n):
+                        acc += c_row[b, r] * dy[r, c]
+                    dq[c] = sens * acc
+                for r in range(n):
+                    for c in range(n + 1):
+                        jx[r, c] = dy[r, c] - gb[b, r] * dq[c]
+                for c in range(n + 1):
+                    je[c] = -dq[c]
+            e = src - d
+            for r in range(n):
+                xs[b, k, r] = x[r]
+            es[b, k] = e
+            iss[b, k] = i
+            ds[b, k] = d
+        if want_jac:
+            for r in range(n):
+                for c in range(n + 1):
+                    jac[b, r, c] = jx[r, c]
+            for c in range(n + 1):
+                jac[b, n, c] = je[c]
+
+
 def _march(disc, c_row, d_row, loads, peak, omega, x0, e0, elements, steps, t0, sensitivity):
-    """Step the supply from (x0, e0); optionally propagate d(x, e)/d(x0, e0)."""
+    """Step the supply from (x0, e0); optionally propagate d(x, e)/d(x0, e0).
+
+    Each step: ``y = Phi x + Ga e + Gb v_src + kappa`` (the state with no drop at the step
+    end), the path current ``i = q - beta d`` with ``q = c.y + d_e v_src + loads``, the
+    complementarity problem for ``(i, d)``, then ``x+ = y - Gb d`` and ``e+ = v_src - d``.
+    """
     batch, n = x0.shape
     h = disc.step
-    phi = disc.phi
-    ga = disc.input_now[:, :, 0]
-    gb = disc.input_next[:, :, 0]
+    ga = np.ascontiguousarray(disc.input_now[:, :, 0])
+    gb = np.ascontiguousarray(disc.input_next[:, :, 0])
     kappa = np.einsum("bnm,bm->bn", disc.input_now[:, :, 1:] + disc.input_next[:, :, 1:], loads)
     beta = np.einsum("bn,bn->b", c_row, gb) + d_row[:, 0]
     load_feed = np.einsum("bm,bm->b", d_row[:, 1:], loads)
@@ -162,38 +242,20 @@ def _march(disc, c_row, d_row, loads, peak, omega, x0, e0, elements, steps, t0, 
     es = np.empty((batch, steps + 1))
     iss = np.empty((batch, steps + 1))
     ds = np.empty((batch, steps + 1))
-    xs[:, 0] = x0
-    es[:, 0] = e0
-    ds[:, 0] = peak * sines[0] - e0
-    iss[:, 0] = np.maximum(np.einsum("bn,bn->b", c_row, x0) + d_row[:, 0] * e0 + load_feed, 0.0)
-    x, e, d = x0, e0, ds[:, 0]
-    z = np.full(batch, np.nan)
-    if sensitivity:
-        jac_x = np.broadcast_to(np.eye(n + 1)[:n], (batch, n, n + 1)).copy()
-        jac_e = np.zeros((batch, n + 1))
-        jac_e[:, n] = 1.0
-    for k in range(1, steps + 1):
-        src = peak * sines[k]
-        y = np.einsum("bij,bj->bi", phi, x) + ga * e[:, None] + gb * src[:, None] + kappa
-        q = np.einsum("bn,bn->b", c_row, y) + d_row[:, 0] * src + load_feed
-        i, d, dd_dq, z = solve_path(q, beta, elements, z)
-        x = y - gb * d[:, None]
-        e_next = src - d
-        if sensitivity:
-            dy = np.einsum("bij,bjk->bik", phi, jac_x) + ga[:, :, None] * jac_e[:, None, :]
-            dq = np.einsum("bn,bnk->bk", c_row, dy)
-            dd = dd_dq[:, None] * dq
-            jac_x = dy - gb[:, :, None] * dd[:, None, :]
-            jac_e = -dd
-        e = e_next
-        xs[:, k] = x
-        es[:, k] = e
-        iss[:, k] = i
-        ds[:, k] = d
-    jac = None
-    if sensitivity:
-        jac = np.concatenate([jac_x, jac_e[:, None, :]], axis=1)
-    return times, xs, es, iss, ds, peak[:, None] * sines[None, :], jac
+    jac = np.empty((batch, n + 1, n + 1))
+    el = elements
+    count = (batch,)
+    _march_kernel(np.ascontiguousarray(disc.phi), ga, gb, kappa, np.ascontiguousarray(c_row),
+                  beta, np.ascontiguousarray(d_row[:, 0]), load_feed,
+                  np.broadcast_to(np.asarray(peak, float), count).copy(), sines,
+                  np.ascontiguousarray(x0, dtype=float),
+                  np.broadcast_to(np.asarray(e0, float), count).copy(),
+                  *(np.broadcast_to(np.asarray(a, float), count).copy() for a in (
+                      el.silicon_count, el.valve_count, el.saturation_current,
+                      el.emission_coefficient, el.series_resistance, el.perveance)),
+                  bool(sensitivity), xs, es, iss, ds, jac)
+    return times, xs, es, iss, ds, np.asarray(peak)[:, None] * sines[None, :], \
+        (jac if sensitivity else None)
 
 
 def periodic_steady_state(model: StateSpace, elements: PathElements, peak, frequency, loads,
