@@ -1,37 +1,42 @@
-"""The binding of a spec to the search: decision variables, decoding, figures, objectives, limits.
+"""The binding of a spec to the search: decision variables, concrete designs, objectives, limits.
 
-A population matrix ``X`` (one row per candidate, float columns; integer columns hold indices)
-is decoded into concrete :class:`~optimiser.design.Design` objects, solved by the steady-state
-simulator at four operating points (nominal and high mains, idle and full power), and scored:
+A population matrix ``X`` (one row per candidate; integer columns hold indices) is decoded into
+:class:`Candidate` choices, turned into concrete :class:`~optimiser.design.Design` objects (the
+physical transformer of the whole population designed in one vectorised call of
+:func:`optimiser.transformer.design_population`), assessed by
+:func:`optimiser.assessment.assess_many` (mains and tolerance corners, sag step, switch-on, every
+rating) and priced by :mod:`optimiser.bill`. The result is scored:
 
-- objectives ``F`` = [cost, regulation, rectifier_stress], all minimised;
-- constraints ``G`` (feasible when every column is <= 0): each node's DC voltage inside its
-  window, ripple inside its limit, the sag inside its tolerance, the solution converged, and every
-  check ratio (actual over rated, at the worst corner) at most 1.
+- objectives ``F`` = [cost, regulation, rectifier_stress], all minimised: cost in cost units;
+  regulation the distance of the static sag from its target (or the sag itself when the spec
+  sets no target), as a fraction; rectifier stress the worst actual-to-rated ratio over the
+  rectifier's ratings;
+- constraints ``G`` (feasible where every column is <= 0): each node's DC voltage inside its
+  window, ripple inside its limit, the sag inside its tolerance (and attack/recovery inside their
+  windows), the transformer buildable, each capacitor value made at its rating, and every check
+  of the assessment at most 1.
 
-Every constraint column is scaled so that 1.0 means "missed by the whole allowance" (a window's
-half-width, a limit's own size); :attr:`CoDesign.constraints` says how to turn a value back into
-volts, percent or a ratio for the report.
+Each constraint column is scaled so that 1.0 means "missed by the whole allowance" (a window's
+half-width, a limit's own size); :attr:`CoDesign.constraints` turns a value back into volts,
+percent or a ratio for the report.
 
-Interim parts of this module, to be replaced when the lead's ``assessment`` module and the
-``transformer`` model land (each is marked INTERIM below): the rating checks, computed here from
-the steady-state figures and the parts data; the switch-on figures (the no-load capacitor voltage
-and the surge into a discharged reservoir, both simple upper bounds); and the transformer's size
-and price, from the core-geometry scaling in ``data/prices.yaml``.
+Choices the search does not make but derives (each the cheapest that meets its purpose):
+the capacitor voltage rating (the lowest rating at or above the no-load crest at high mains,
+optionally one step up), the dropping resistors' and bleeder's power class, the reservoir bleeder
+(one across each capacitor, the largest E12 value that discharges it in time).
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, replace
 from functools import cached_property
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
-import yaml
 
-from . import evaluation, parts
+from . import bill, parts, transients
+from .assessment import assess_many
 from .design import (
     Design,
     EquivalentTransformer,
@@ -39,161 +44,41 @@ from .design import (
     Load,
     Mains,
     Node,
+    Position,
     Rectifier,
 )
-from .evaluation import Batch, figures, solve_batch
-from .schema import Mass, Strict
 from .search import Variable
-from .spec import Spec
+from .spec import RECTIFIER_HEATER, Spec
+from .transformer import (
+    AuxiliaryWinding,
+    BiasWindingBlock,
+    HeaterWindingBlock,
+    HvWindingBlock,
+    TransformerBuild,
+    design_population,
+    load_transformer_data,
+)
 from .units import format_quantity
 
 __all__ = [
     "OBJECTIVES",
+    "RATING_CHOICES",
     "ConstraintInfo",
     "Candidate",
-    "Assessment",
-    "PriceModel",
-    "load_prices",
-    "transformer_estimate",
+    "Scored",
     "CoDesign",
-    "SpecMismatch",
+    "Unmet",
+    "Optimisation",
+    "optimise",
+    "reported_front",
 ]
 
 OBJECTIVES = ("cost", "regulation", "rectifier_stress")
-PRICES_FILE = Path(__file__).parent / "data" / "prices.yaml"
-#: Sine-wave form factor of the EMF equation, 4.44 = 2π/√2. Source: the transformer EMF
-#: equation V = 4.44·f·N·B·A (any transformer text, e.g. McLyman 4th ed. ch. 7).
-FORM_FACTOR = 2.0 * math.pi / math.sqrt(2.0)
-#: Mass of geometrically similar cores grows as Kg^(3/5): Kg goes as length^5, mass as length^3.
-MASS_EXPONENT = 3.0 / 5.0
-
-
-class SpecMismatch(ValueError):
-    """A design that does not fit the spec's choices (unknown rectifier, capacitor, feed ...)."""
-
-
-# --------------------------------------------------------------------------------------------
-# Prices
-
-
-class TransformerEstimate(Strict):
-    efficiency: float
-    reference_core_geometry_cm5: float
-    reference_mass: Mass
-    base: float
-    labour_per_winding: float
-    price_per_kg: float
-    provenance: str
-
-
-class _Price(Strict):
-    price: float
-    provenance: str
-
-
-class _PartPrice(_Price):
-    kind: str
-    name: str
-
-
-class _PriceFile(Strict):
-    provenance: str
-    transformer_estimate: TransformerEstimate
-    valve_socket: _Price
-    parts: list[_PartPrice]
-
-
-@dataclass(frozen=True)
-class PriceModel:
-    """Prices in cost units: the transformer estimate's settings and part prices by name.
-
-    Attributes
-    ----------
-    transformer : TransformerEstimate
-    valve_socket : float
-    parts : dict
-        ``(kind, casefolded name) -> price``. [cost units]
-    overrides : dict
-        ``casefolded name -> price`` from the spec, applied to any kind. [cost units]
-    """
-
-    transformer: TransformerEstimate
-    valve_socket: float
-    parts: dict
-    overrides: dict = field(default_factory=dict)
-
-    def price(self, kind: str, name: str, default=None) -> float:
-        """Price of a named part: the spec's override, else the price file, else ``default``."""
-        key = name.casefold()
-        if key in self.overrides:
-            return self.overrides[key]
-        if (kind, key) in self.parts:
-            return self.parts[(kind, key)]
-        if default is not None:
-            return default
-        raise LookupError(f"no price for {kind} {name!r} in {PRICES_FILE.name}; give one in the "
-                          f"spec under costs.parts ({name}: <cost units>)")
-
-
-def load_prices(spec: Spec | None = None, path=PRICES_FILE) -> PriceModel:
-    """The bundled price model with a spec's ``costs`` overrides applied."""
-    data = yaml.safe_load(Path(path).read_text(encoding="utf-8"))
-    model = _PriceFile.model_validate(data)
-    table = {(p.kind, p.name.casefold()): p.price for p in model.parts}
-    tx = model.transformer_estimate
-    overrides = {}
-    if spec is not None:
-        overrides = {k.casefold(): v for k, v in spec.costs.parts.items()}
-        update = {k: v for k, v in spec.costs.transformer.model_dump().items() if v is not None}
-        tx = tx.model_copy(update=update)
-    return PriceModel(transformer=tx, valve_socket=model.valve_socket.price, parts=table,
-                      overrides=overrides)
-
-
-def transformer_estimate(hv_va, copper_loss, other_va, windings, frequency, max_flux_density,
-                         prices: TransformerEstimate):
-    """INTERIM size and price of the power transformer from its VA and HV regulation.
-
-    Parameters
-    ----------
-    hv_va : array_like
-        Apparent power of the HV winding (V_rms · I_rms, both halves for centre-tap). [VA]
-    copper_loss : array_like
-        Copper loss of the HV conducting path (winding plus primary share). [W]
-    other_va : array_like
-        Apparent power of the heater and auxiliary windings. [VA]
-    windings : array_like
-        Number of windings, the primary counted. [-]
-    frequency : float
-        Mains frequency. [Hz]
-    max_flux_density : float
-        Peak flux density in the core. [T]
-    prices : TransformerEstimate
-
-    Returns
-    -------
-    core_geometry : ndarray
-        Kg. [cm^5]
-    mass : ndarray
-        Estimated mass. [kg]
-    cost : ndarray
-        Estimated price. [cost units]
-
-    References
-    ----------
-    .. [1] C. W. T. McLyman, Transformer and Inductor Design Handbook, 4th ed., CRC Press,
-       2011, ch. 7 (core geometry Kg = Pt / (2·Ke·alpha), Ke = 0.145·Kf²·f²·Bm²·1e-4).
-    """
-    hv_va = np.asarray(hv_va, float)
-    alpha = 100.0 * np.asarray(copper_loss, float) / np.maximum(hv_va, 1e-9)  # percent
-    alpha = np.maximum(alpha, 1e-3)
-    pt = (hv_va + np.asarray(other_va, float)) * (1.0 + 1.0 / prices.efficiency)
-    ke = 0.145 * FORM_FACTOR ** 2 * frequency ** 2 * max_flux_density ** 2 * 1e-4
-    kg = pt / (2.0 * ke * alpha)
-    mass = prices.reference_mass * (kg / prices.reference_core_geometry_cm5) ** MASS_EXPONENT
-    cost = prices.base + prices.labour_per_winding * np.asarray(windings, float) \
-        + prices.price_per_kg * mass
-    return kg, mass, cost
+#: Capacitor voltage ratings offered per capacitor: the lowest one above the no-load crest, or
+#: the next one up (a higher rating also carries more ripple current). An encoding choice.
+RATING_CHOICES = 2
+#: Preferred-number series of the bleeder resistor (IEC 60063).
+BLEEDER_SERIES = "E12"
 
 
 # --------------------------------------------------------------------------------------------
@@ -207,13 +92,13 @@ class ConstraintInfo:
     Attributes
     ----------
     name : str
-        E.g. ``"plates.dc_voltage.low"`` or ``"check: valve peak plate current"``.
+        E.g. ``"plates.dc_voltage.low"`` or ``"check: valve.piv"``.
     description : str
         What it asks, for people.
     scale : float
-        ``g · scale`` is the miss in ``unit`` (for a ratio check, ``g + 1`` is the ratio).
+        ``g · scale`` is the miss in ``unit``; for a ratio, ``g + 1`` is the ratio.
     unit : str
-        ``"V"``, ``"%"``, or ``"ratio"``.
+        ``"V"``, ``"s"``, ``"%"``, ``"ratio"`` or ``"flag"``.
     """
 
     name: str
@@ -223,13 +108,15 @@ class ConstraintInfo:
 
     def miss(self, g: float) -> str:
         """How far a constraint value is from being met, in the constraint's own terms."""
+        if not math.isfinite(g):
+            return "not computable (the solution failed)"
         if self.unit == "ratio":
-            return f"ratio {g + 1.0:.3g} (limit 1; {100 * g:.3g} % over)"
+            return f"ratio {g + 1.0:.3g} against a limit of 1 ({100 * g:.3g} % over)"
         if self.unit == "%":
-            return f"{100 * g * self.scale:.3g} percentage points"
-        if self.unit == "converged":
-            return "the steady-state solution did not converge"
-        return f"{format_quantity(g * self.scale, self.unit)}"
+            return f"{100 * g * self.scale:.3g} percentage points outside"
+        if self.unit == "flag":
+            return "not met"
+        return f"{format_quantity(g * self.scale, self.unit)} outside"
 
 
 @dataclass(frozen=True)
@@ -238,60 +125,57 @@ class Candidate:
 
     Attributes
     ----------
-    secondary_voltage : float
-        HV secondary, RMS open circuit at nominal mains (per half for centre-tap). [V]
-    winding_resistance : float
-        Series resistance per conducting path, winding plus primary referred. [ohm]
+    hv_voltage : float
+        HV RMS voltage at rated load per conducting path. [V]
+    hv_current : float
+        HV RMS current rating per conducting path. [A]
+    core_stack : int
+        Index into :attr:`CoDesign.core_stacks`.
+    current_density : float
+        Wire current density of every winding. [A/m^2]
     rectifier : int
         Index into ``spec.choices.rectifiers``.
     capacitance : tuple of float
         Per node. [F]
+    rating_steps : tuple of int
+        Per node: 0 the lowest voltage rating above the crest, 1 the next.
     feeds : tuple of int
-        Per node after the first, index into :attr:`CoDesign.feed_options`.
+        Per node after the first: index into :attr:`CoDesign.feed_options`.
     """
 
-    secondary_voltage: float
-    winding_resistance: float
+    hv_voltage: float
+    hv_current: float
+    core_stack: int
+    current_density: float
     rectifier: int
     capacitance: tuple
+    rating_steps: tuple
     feeds: tuple
 
 
 @dataclass(frozen=True)
-class Assessment:
-    """Figures, objectives and constraints of a list of designs.
+class Scored:
+    """Designs with every figure, objective and constraint.
 
     Attributes
     ----------
-    candidates : list of Candidate
     designs : list of Design
-        As written to design files (idle and full-power loads, nominal mains).
     frame : pandas.DataFrame
-        One row per design: the variables, the objectives, the nominal full-power figures named as
-        :func:`~optimiser.evaluation.evaluate_many` names them, idle and worst-corner figures,
-        costs, and ``check: <name>`` ratio columns.
+        One row per design: what was chosen, the objectives and costs, the transformer's
+        figures, the assessment's figures (nominal full power under the names
+        :func:`~optimiser.evaluation.evaluate_many` uses where it has them) and ``check: <name>``
+        ratio columns.
     F : ndarray (B, 3)
-        cost [cost units], regulation [-], rectifier_stress [-].
     G : ndarray (B, M)
-        Constraint values, <= 0 feasible.
-    check_names : tuple of str
-    check_ratio : ndarray (B, K)
-        Actual over rated at the worst corner, NaN where not applicable.
-    check_value, check_limit : ndarray (B, K)
-        The worst value and its limit, in SI units (``check_units`` says which).
-    check_units : tuple of str
+    table : AssessmentTable
+        The assessment itself.
     """
 
-    candidates: list
     designs: list
     frame: pd.DataFrame
     F: np.ndarray
     G: np.ndarray
-    check_names: tuple
-    check_ratio: np.ndarray
-    check_value: np.ndarray
-    check_limit: np.ndarray
-    check_units: tuple
+    table: object
 
     @property
     def feasible(self) -> np.ndarray:
@@ -306,6 +190,7 @@ class FeedOption:
     resistance: float
     inductance: float = 0.0
     choke: str | None = None
+    current_rating: float | None = None
 
     @property
     def label(self) -> str:
@@ -314,85 +199,139 @@ class FeedOption:
         return f"resistor {format_quantity(self.resistance, 'ohm')}"
 
 
+def _sig(value, digits=3):
+    """Round to significant figures, so that a design file holds exactly the value simulated."""
+    value = np.asarray(value, float)
+    safe = np.where(value == 0, 1.0, np.abs(value))
+    factor = 10.0 ** (digits - 1 - np.floor(np.log10(safe)))
+    return np.round(value * factor) / factor
+
+
 # --------------------------------------------------------------------------------------------
 # The binding
 
 
-def _sig(value, digits=3):
-    """Round to significant figures (so a written design file reproduces the value exactly)."""
-    value = np.asarray(value, float)
-    with np.errstate(divide="ignore"):
-        exponent = np.floor(np.log10(np.abs(np.where(value == 0, 1.0, value))))
-    factor = 10.0 ** (digits - 1 - exponent)
-    return np.round(value * factor) / factor
-
-
-def _q(value, unit):
-    """A unit string that reads back to the same float (6 significant figures)."""
-    return format_quantity(float(value), unit, digits=6)
-
-
 class CoDesign:
-    """One spec bound to the search: variables, decoding, assessment, objectives, constraints.
+    """One spec bound to the search.
 
     Parameters
     ----------
     spec : Spec
-    prices : PriceModel, optional
-        Default: the bundled prices with the spec's overrides.
-    steps_per_half_cycle : int, optional
-        Steady-state solver resolution; default the spec's search setting.
     """
 
     objective_names = OBJECTIVES
 
-    def __init__(self, spec: Spec, prices: PriceModel | None = None,
-                 steps_per_half_cycle: int | None = None):
+    def __init__(self, spec: Spec):
         self.spec = spec
-        self.prices = prices or load_prices(spec)
-        self.steps = steps_per_half_cycle or spec.search.steps_per_half_cycle
         c = spec.choices
+        t = spec.transformer
         self.node_names = [n.name for n in spec.nodes]
         n_nodes = len(spec.nodes)
+        data = load_transformer_data()
+        update = {k: v for k, v in spec.costs.transformer.model_dump().items() if v is not None}
+        self.transformer_data = replace(data, prices=data.prices.model_copy(update=update))
+        self.steel_index = data.steel_index(t.steel)
+        steel = data.steels[self.steel_index]
+        self.max_flux_density = t.max_flux_density or steel.max_flux_density
+        self.primaries = list(t.primaries or [spec.mains.voltage])
+        names = t.cores or [core.name for core in data.cores]
+        self.core_stacks = [(data.core_index(name), name, float(stack)) for name in names
+                            for stack in data.cores[data.core_index(name)].stacks]
         vr = c.secondary_voltage
-        self.voltage_grid = vr.min + vr.step * np.arange(int(math.floor((vr.max - vr.min)
-                                                                        / vr.step + 1e-9)) + 1)
+        self.voltage_grid = vr.min + vr.step * np.arange(
+            int(math.floor((vr.max - vr.min) / vr.step + 1e-9)) + 1)
+        jr = t.current_density
+        self.density_grid = jr.min + jr.step * np.arange(
+            int(math.floor((jr.max - jr.min) / jr.step + 1e-9)) + 1)
+        full_dc = sum(ns.full_power_current for ns in spec.nodes)
+        self.hv_current_range = ((c.hv_current.min, c.hv_current.max) if c.hv_current else
+                                 (0.5 * full_dc, 3.0 * full_dc))
         self.capacitor_choice = [c.reservoir] + [c.filter] * (n_nodes - 1)
         self.capacitor_values = [np.array(ch.values()) for ch in self.capacitor_choice]
         self.feed_options = [[]]
         for name in self.node_names[1:]:
-            opts = spec.choices.feeds[name]
+            opts = c.feeds[name]
             options = []
             for choke in opts.chokes:
                 p = parts.find_part("choke", choke)
-                options.append(FeedOption("choke", p.dc_resistance, p.inductance, p.name))
+                options.append(FeedOption("choke", p.dc_resistance, p.inductance, p.name,
+                                          p.rated_current))
             if opts.resistance is not None:
                 options += [FeedOption("resistor", r) for r in opts.resistance.values()]
             self.feed_options.append(options)
-        self._esr_cache = {}
-        self._node_cache = {}
+        self.conditions = spec.conditions.model_copy(update={
+            "mains_low": spec.mains.tolerance, "mains_high": spec.mains.tolerance,
+            "ambient": spec.ambient, "capacitor_series": c.reservoir.series})
         self._mains = Mains.model_construct(voltage=spec.mains.voltage,
                                             frequency=spec.mains.frequency)
-        self._rectifiers = [Rectifier.model_construct(topology=o.topology, diode=o.diode,
-                                                      valve=o.valve) for o in c.rectifiers]
-        self._rectifier_tables()
-        self._part_tables()
+        self._rectifiers = [self._rectifier_model(o) for o in c.rectifiers]
+        self._check_prices()
+        self._resistor_classes = sorted(parts.load_catalogue("resistor").values(),
+                                        key=lambda p: p.power)
+        if c.resistor_ratings:
+            self._resistor_classes = [p for p in self._resistor_classes
+                                      if p.name in c.resistor_ratings]
+        self._node_cache = {}
         self.variables = self._variables()
         self.constraints = self._constraint_info()
         self.constraint_names = [ci.name for ci in self.constraints]
 
+    # ---------------------------------------------------------------- rectifiers and prices
+
+    @staticmethod
+    def _rectifier_model(option) -> Rectifier:
+        if option.topology == "switchable":
+            positions = {name: Position.model_construct(topology=p.topology, diode=p.diode,
+                                                        valve=p.valve, heater_shared=False,
+                                                        reservoir=None)
+                         for name, p in option.positions.items()}
+            return Rectifier.model_construct(topology="switchable", diode=None, valve=None,
+                                             heater_shared=False, positions=positions)
+        return Rectifier.model_construct(topology=option.topology, diode=option.diode,
+                                         valve=option.valve, heater_shared=False, positions=None)
+
+    def _check_prices(self):
+        """Every part the search may use has a price (the spec's or the price list's)."""
+        overrides = {k.casefold() for k in self.spec.costs.parts}
+        for option in self.spec.choices.rectifiers:
+            for sub in option.members():
+                for group, name in (("diodes", sub.diode), ("valves", sub.valve)):
+                    if name is None or name.casefold() in overrides:
+                        continue
+                    part = parts.find_part(group[:-1], name)
+                    if not math.isfinite(bill.price_of(group, part.name)[0]):
+                        raise LookupError(f"no price for {part.name} in {bill.PRICE_FILE.name}; "
+                                          f"give one in the spec under costs.parts")
+
+    def rectifier_heater(self, option):
+        """(voltage [V], current [A]) of the heater winding a rectifier option needs, or None.
+
+        A valve rectifier gets its own heater winding (a directly heated filament is at B+; an
+        indirectly heated one is kept off the signal valves' winding, so no heater-cathode limit
+        applies); a switchable pair needs the larger of its valves' heaters.
+        """
+        valves = [parts.find_part("valve", m.valve) for m in option.members() if m.valve]
+        if not valves:
+            return None
+        worst = max(valves, key=lambda v: v.heater_voltage * v.heater_current)
+        return worst.heater_voltage, max(v.heater_current for v in valves
+                                         if v.heater_voltage == worst.heater_voltage)
+
     # ---------------------------------------------------------------- variables
 
     def _variables(self):
-        c = self.spec.choices
+        lo, hi = self.hv_current_range
         out = [
             Variable("secondary_voltage", 0, len(self.voltage_grid) - 1, integer=True),
-            Variable("winding_resistance", math.log10(c.winding_resistance.min),
-                     math.log10(c.winding_resistance.max)),
-            Variable("rectifier", 0, len(c.rectifiers) - 1, integer=True),
+            Variable("hv_current", math.log10(lo), math.log10(hi)),
+            Variable("core_stack", 0, len(self.core_stacks) - 1, integer=True),
+            Variable("current_density", 0, len(self.density_grid) - 1, integer=True),
+            Variable("rectifier", 0, len(self.spec.choices.rectifiers) - 1, integer=True),
         ]
         for name, values in zip(self.node_names, self.capacitor_values):
             out.append(Variable(f"{name}.capacitance", 0, len(values) - 1, integer=True))
+        for name in self.node_names:
+            out.append(Variable(f"{name}.rating_step", 0, RATING_CHOICES - 1, integer=True))
         for name, options in zip(self.node_names[1:], self.feed_options[1:]):
             out.append(Variable(f"{name}.feed", 0, len(options) - 1, integer=True))
         return out
@@ -401,503 +340,430 @@ class CoDesign:
         """Candidates from a population matrix (integer columns are taken as indices)."""
         X = np.atleast_2d(np.asarray(X, float))
         n = len(self.node_names)
-        iv = np.clip(np.rint(X[:, 0]).astype(int), 0, len(self.voltage_grid) - 1)
-        volts = self.voltage_grid[iv]
-        ohms = _sig(10.0 ** X[:, 1], 3)
-        rect = np.clip(np.rint(X[:, 2]).astype(int), 0, len(self.spec.choices.rectifiers) - 1)
-        caps = [self.capacitor_values[k][np.clip(np.rint(X[:, 3 + k]).astype(int), 0,
-                                                 len(self.capacitor_values[k]) - 1)]
+
+        def index(col, count):
+            return np.clip(np.rint(X[:, col]).astype(int), 0, count - 1)
+
+        volts = self.voltage_grid[index(0, len(self.voltage_grid))]
+        amps = _sig(10.0 ** X[:, 1], 3)
+        core = index(2, len(self.core_stacks))
+        density = self.density_grid[index(3, len(self.density_grid))]
+        rect = index(4, len(self.spec.choices.rectifiers))
+        caps = [self.capacitor_values[k][index(5 + k, len(self.capacitor_values[k]))]
                 for k in range(n)]
-        feeds = [np.clip(np.rint(X[:, 3 + n + k - 1]).astype(int), 0,
-                         len(self.feed_options[k]) - 1) for k in range(1, n)]
-        return [Candidate(float(volts[b]), float(ohms[b]), int(rect[b]),
-                          tuple(float(caps[k][b]) for k in range(n)),
-                          tuple(int(f[b]) for f in feeds)) for b in range(X.shape[0])]
+        steps = [index(5 + n + k, RATING_CHOICES) for k in range(n)]
+        feeds = [index(5 + 2 * n + k - 1, len(self.feed_options[k])) for k in range(1, n)]
+        return [Candidate(float(volts[b]), float(amps[b]), int(core[b]), float(density[b]),
+                          int(rect[b]), tuple(float(caps[k][b]) for k in range(n)),
+                          tuple(int(s[b]) for s in steps), tuple(int(f[b]) for f in feeds))
+                for b in range(X.shape[0])]
 
     def encode(self, candidate: Candidate) -> np.ndarray:
         """The population row of a candidate (the inverse of :meth:`decode`)."""
-        row = [int(np.argmin(np.abs(self.voltage_grid - candidate.secondary_voltage))),
-               math.log10(candidate.winding_resistance), candidate.rectifier]
+        row = [int(np.argmin(np.abs(self.voltage_grid - candidate.hv_voltage))),
+               math.log10(candidate.hv_current), candidate.core_stack,
+               int(np.argmin(np.abs(self.density_grid - candidate.current_density))),
+               candidate.rectifier]
         for k, c in enumerate(candidate.capacitance):
             row.append(int(np.argmin(np.abs(np.log(self.capacitor_values[k] / c)))))
-        row += list(candidate.feeds)
+        row += list(candidate.rating_steps) + list(candidate.feeds)
         return np.array(row, float)
 
-    def esr(self, node: int, capacitance: float) -> float:
-        """ESR used for a node's capacitor: the series' worst tan δ at the ripple frequency. [ohm]
+    # ---------------------------------------------------------------- designs
 
-        The ripple fundamental of a full-wave rectifier is twice the mains frequency.
-        ESR = tan δ / (2π f C) (IEC 60384-4); the largest tan δ over the allowed ratings is
-        taken so that the rating chosen afterwards can only be better. Rounded to 3 significant
-        figures so that a written design file holds exactly the value simulated.
+    def designs(self, candidates) -> list[Design]:
+        """Concrete designs of candidates, their transformers designed in one vectorised pass."""
+        s = self.spec
+        count = len(candidates)
+        options = s.choices.rectifiers
+        heater = [self.rectifier_heater(options[c.rectifier]) for c in candidates]
+        built = [None] * count
+        blocks = [None] * count
+        for with_heater in (False, True):
+            members = [b for b in range(count) if (heater[b] is not None) == with_heater]
+            if not members:
+                continue
+            cands = [candidates[b] for b in members]
+            ct = np.array([options[c.rectifier].centre_tapped for c in cands])
+            heaters = [AuxiliaryWinding(h.name, h.voltage, h.current, h.centre_tap)
+                       for h in s.heaters]
+            if with_heater:
+                heaters.append(AuxiliaryWinding(
+                    RECTIFIER_HEATER, np.array([heater[b][0] for b in members]),
+                    np.array([heater[b][1] for b in members])))
+            bias = (AuxiliaryWinding("bias", s.bias.voltage, s.bias.current, s.bias.centre_tap)
+                    if s.bias is not None else None)
+            t = s.transformer
+            pop = design_population(
+                core_index=np.array([self.core_stacks[c.core_stack][0] for c in cands]),
+                stack=np.array([self.core_stacks[c.core_stack][2] for c in cands]),
+                max_flux_density=self.max_flux_density,
+                hv_voltage=np.array([c.hv_voltage for c in cands]),
+                hv_rms_current=np.array([c.hv_current for c in cands]),
+                frequency=s.mains.frequency, primary_voltages=self.primaries,
+                primary_arrangement=t.primary_arrangement,
+                insulation_class=t.insulation_class, ambient_temperature=s.ambient,
+                hv_centre_tapped=ct,
+                current_density=np.array([c.current_density for c in cands]),
+                heaters=heaters, bias=bias, screen=t.screen, steel_index=self.steel_index,
+                wire_system=t.wire, data=self.transformer_data)
+            for j, b in enumerate(members):
+                block = self._build_block(candidates[b], bool(ct[j]), heater[b])
+                blocks[b] = block
+                built[b] = pop.design(j, build=block)
+        return [self._design(c, blk, td) for c, blk, td in zip(candidates, blocks, built)]
+
+    def _build_block(self, c: Candidate, centre_tapped: bool, heater) -> TransformerBuild:
+        s = self.spec
+        t = s.transformer
+        heaters = [HeaterWindingBlock.model_construct(name=h.name, voltage=h.voltage,
+                                                      current=h.current,
+                                                      centre_tapped=h.centre_tap)
+                   for h in s.heaters]
+        if heater is not None:
+            heaters.append(HeaterWindingBlock.model_construct(
+                name=RECTIFIER_HEATER, voltage=heater[0], current=heater[1],
+                centre_tapped=False))
+        bias = (BiasWindingBlock.model_construct(voltage=s.bias.voltage, current=s.bias.current,
+                                                 centre_tapped=s.bias.centre_tap)
+                if s.bias is not None else None)
+        _, core, stack = self.core_stacks[c.core_stack]
+        return TransformerBuild.model_construct(
+            primaries=self.primaries, primary_arrangement=t.primary_arrangement, core=core,
+            stack=stack, steel=t.steel, max_flux_density=self.max_flux_density,
+            current_density=c.current_density, insulation_class=t.insulation_class,
+            ambient=s.ambient,
+            hv=HvWindingBlock.model_construct(voltage=c.hv_voltage, current=c.hv_current,
+                                              centre_tapped=centre_tapped),
+            heaters=heaters, bias=bias, screen=t.screen, winding_order=None, wire=t.wire,
+            enamel_grade=2, mounting=t.mounting)
+
+    def crest_voltage(self, open_circuit_voltage):
+        """No-load crest of the HV winding at high mains and the winder's high tolerance. [V]
+
+        With the valves cold nothing loads the supply but the bleeder, so every capacitor of a
+        capacitor-input ladder charges towards this peak (an LC feed can ring above it at
+        switch-on; the assessment checks that against the surge rating).
         """
-        key = (node, capacitance)
-        if key not in self._esr_cache:
-            choice = self.capacitor_choice[node]
-            series = parts.find_part("capacitor", choice.series)
-            tan_delta = max([series.tan_delta] + [r.tan_delta for r in choice.ratings()
-                                                  if r.tan_delta is not None])
-            f = 2.0 * self.spec.mains.frequency
-            self._esr_cache[key] = float(_sig(tan_delta / (2 * math.pi * f * capacitance), 3))
-        return self._esr_cache[key]
+        cond = self.conditions
+        return (math.sqrt(2.0) * open_circuit_voltage * (1 + cond.mains_high)
+                * (1 + cond.transformer_tolerance))
 
-    def _node(self, k, capacitance, feed_index, loads):
-        key = (k, capacitance, feed_index, loads)
-        node = self._node_cache.get(key)
-        if node is None:
-            ns = self.spec.nodes[k]
-            if loads == "spec":
-                load = Load.model_construct(current=None, resistance=None,
-                                            idle_current=ns.idle_current,
-                                            full_power_current=ns.full_power_current)
-            else:
-                current = ns.idle_current if loads == "idle" else ns.full_power_current
-                load = Load.model_construct(current=current, resistance=None, idle_current=None,
-                                            full_power_current=None)
+    def _rating(self, node, capacitance, crest, step):
+        """(rated voltage, made) for a node's capacitor: the lowest allowed rating at or above
+        the crest, ``step`` ratings higher, moved up until the value is made at it."""
+        ratings = self.capacitor_choice[node].ratings()
+        rated = [r.rated for r in ratings]
+        first = next((i for i, v in enumerate(rated) if v >= crest), len(rated) - 1)
+        i = min(first + step, len(rated) - 1)
+        for j in range(i, len(rated)):
+            r = ratings[j]
+            if r.min_capacitance * (1 - 1e-9) <= capacitance <= r.max_capacitance * (1 + 1e-9):
+                return r.rated, True
+        return ratings[i].rated, False
+
+    def _resistor_power(self, dissipation):
+        """Power rating of the smallest resistor class whose derated power covers the asked
+        margin over a dissipation, else the largest class. [W]"""
+        need = self.spec.margins.resistor_power_factor * dissipation
+        for p in self._resistor_classes:
+            if p.power_at(self.spec.ambient) >= need:
+                return p.power
+        return self._resistor_classes[-1].power
+
+    def _design(self, c: Candidate, block, built) -> Design:
+        s = self.spec
+        v_oc = float(built.hv_open_circuit_voltage)
+        crest = self.crest_voltage(v_oc)
+        full = [ns.full_power_current for ns in s.nodes]
+        downstream = np.cumsum(full[::-1])[::-1]
+        nodes = []
+        for k, ns in enumerate(s.nodes):
+            rated, _ = self._rating(k, c.capacitance[k], crest, c.rating_steps[k])
+            series = parts.find_part("capacitor", self.capacitor_choice[k].series)
             feed = None
             if k > 0:
-                fo = self.feed_options[k][feed_index]
-                feed = Feed.model_construct(resistance=fo.resistance, inductance=fo.inductance)
-            node = Node.model_construct(name=ns.name, capacitance=capacitance,
-                                        esr=self.esr(k, capacitance), feed=feed, load=load)
-            self._node_cache[key] = node
-        return node
-
-    def design(self, candidate: Candidate, loads="spec") -> Design:
-        """The concrete supply of a candidate.
-
-        Parameters
-        ----------
-        loads : {"spec", "idle", "full"}
-            "spec": idle and full-power currents, as a design file holds them; "idle"/"full":
-            constant-current loads at that level.
-        """
-        s = self.spec
-        opt = s.choices.rectifiers[candidate.rectifier]
-        nodes = [self._node(k, candidate.capacitance[k],
-                            candidate.feeds[k - 1] if k else None, loads)
-                 for k in range(len(s.nodes))]
-        return Design.model_construct(
-            mains=self._mains,
-            transformer=EquivalentTransformer.model_construct(
-                secondary_voltage=candidate.secondary_voltage,
-                secondary_resistance=candidate.winding_resistance, leakage_inductance=0.0),
-            rectifier=self._rectifiers[candidate.rectifier],
-            nodes=nodes)
-
-    def candidate_of(self, design: Design) -> Candidate:
-        """The choices behind a design (e.g. one read back from a design file).
-
-        Raises
-        ------
-        SpecMismatch
-            If the design is not one the spec's choices allow.
-        """
-        s = self.spec
-        if [n.name for n in design.nodes] != self.node_names:
-            raise SpecMismatch(f"the design's nodes {[n.name for n in design.nodes]} are not the "
-                               f"spec's {self.node_names}")
-        r = design.rectifier
-        key = (r.topology, r.diode if isinstance(r.diode, str) else None,
-               r.valve if isinstance(r.valve, str) else None)
-        matches = [j for j, o in enumerate(s.choices.rectifiers)
-                   if (o.topology, o.diode, o.valve) == key]
-        if not matches:
-            raise SpecMismatch(f"rectifier {key} is not among the spec's rectifiers")
-        feeds = []
-        for k, node in enumerate(design.nodes[1:], start=1):
-            found = [j for j, fo in enumerate(self.feed_options[k])
-                     if math.isclose(fo.resistance, node.feed.resistance, rel_tol=1e-6)
-                     and math.isclose(fo.inductance, node.feed.inductance, rel_tol=1e-6,
-                                      abs_tol=1e-12)]
-            if not found:
-                raise SpecMismatch(f"node {node.name}: feed {node.feed} is not among the options")
-            feeds.append(found[0])
-        return Candidate(design.transformer.secondary_voltage,
-                         design.transformer.secondary_resistance, matches[0],
-                         tuple(n.capacitance for n in design.nodes), tuple(feeds))
-
-    # ---------------------------------------------------------------- parts tables
-
-    def _rectifier_tables(self):
-        """Per rectifier option: counts, ratings (NaN where not applicable) and prices."""
-        opts = self.spec.choices.rectifiers
-        nan = math.nan
-        t = {k: np.full(len(opts), nan) for k in (
-            "diodes", "valves", "v_rrm", "i_f_avg", "i_fsm", "diode_rs", "max_piv", "max_peak",
-            "max_dc", "max_c", "max_vrms", "heater_va", "price", "silicon_only")}
-        self._plate_impedance = []
-        for j, o in enumerate(opts):
-            diodes = {"bridge": 4, "hybrid-bridge": 2, "centre-tap": 2}[o.topology] \
-                if o.diode else 0
-            t["diodes"][j] = diodes
-            t["valves"][j] = 1 if o.valve else 0
-            t["silicon_only"][j] = 0 if o.valve else 1
-            price = 0.0
-            if o.diode:
-                d = parts.find_part("diode", o.diode)
-                t["v_rrm"][j], t["i_f_avg"][j], t["i_fsm"][j] = d.v_rrm, d.i_f_avg, d.i_fsm
-                t["diode_rs"][j] = d.series_resistance
-                price += diodes * self.prices.price("diode", d.name)
-            impedance = None
-            if o.valve:
-                v = parts.find_part("valve", o.valve)
-                t["max_piv"][j], t["max_peak"][j], t["max_dc"][j] = (
-                    v.max_piv, v.max_peak_current, v.max_dc_current)
-                t["max_c"][j] = v.max_input_capacitance or nan
-                if o.topology == "centre-tap":
-                    t["max_vrms"][j] = v.max_plate_voltage_rms or nan
-                t["heater_va"][j] = v.heater_voltage * v.heater_current
-                price += self.prices.price("valve", v.name) + self.prices.valve_socket
-                impedance = v.min_plate_impedance_at if v.min_plate_impedance else None
-            else:
-                t["heater_va"][j] = 0.0
-            t["price"][j] = price
-            self._plate_impedance.append(impedance)
-        self.rect = t
-
-    def _part_tables(self):
-        names = self.spec.choices.resistor_ratings
-        catalogue = parts.load_catalogue("resistor")
-        classes = [catalogue[n] if n in catalogue else parts.find_part("resistor", n)
-                   for n in names] if names else list(catalogue.values())
-        classes.sort(key=lambda p: self.prices.price("resistor", p.name, p.cost))
-        self.resistor_classes = classes
-        amb = self.spec.ambient
-        self.res = {
-            "power": np.array([p.power_at(amb) for p in classes]),
-            "max_v": np.array([p.max_working_voltage for p in classes]),
-            "r_min": np.array([p.resistance_range.min for p in classes]),
-            "r_max": np.array([p.resistance_range.max for p in classes]),
-            "cost": np.array([self.prices.price("resistor", p.name, p.cost) for p in classes]),
-        }
-        self.feed_tables = [None]
-        for options in self.feed_options[1:]:
-            chokes = [parts.find_part("choke", o.choke) if o.kind == "choke" else None
-                      for o in options]
-            self.feed_tables.append({
-                "resistance": np.array([o.resistance for o in options]),
-                "is_choke": np.array([o.kind == "choke" for o in options]),
-                "rated_current": np.array([p.rated_current if p else np.nan for p in chokes]),
-                "cost": np.array([self.prices.price("choke", p.name, p.cost) if p else 0.0
-                                  for p in chokes]),
-            })
-        self.cap_tables = []
-        for choice in self.capacitor_choice:
-            series = parts.find_part("capacitor", choice.series)
-            ratings = choice.ratings()
-            self.cap_tables.append({
-                "series": series,
-                "rated": np.array([r.rated for r in ratings]),
-                "surge": np.array([r.surge for r in ratings]),
-                "c_min": np.array([r.min_capacitance for r in ratings]),
-                "c_max": np.array([r.max_capacitance for r in ratings]),
-            })
+                fo = self.feed_options[k][c.feeds[k - 1]]
+                if fo.kind == "choke":
+                    feed = Feed.model_construct(resistance=fo.resistance, inductance=fo.inductance,
+                                                power_rating=None, current_rating=fo.current_rating)
+                else:
+                    power = self._resistor_power(downstream[k] ** 2 * fo.resistance)
+                    feed = Feed.model_construct(resistance=fo.resistance, inductance=0.0,
+                                                power_rating=power, current_rating=None)
+            esr = float(_sig(series.esr(c.capacitance[k], 2.0 * s.mains.frequency, rated), 3))
+            nodes.append(Node.model_construct(
+                name=ns.name, capacitance=c.capacitance[k], esr=esr, feed=feed,
+                load=Load.model_construct(current=None, resistance=None,
+                                          idle_current=ns.idle_current,
+                                          full_power_current=ns.full_power_current),
+                rated_voltage=rated, capacitor_series=series.name, bleeder=None,
+                bleeder_power_rating=None))
+        # a bleeder across every capacitor, each discharging its own capacitor in time (the
+        # feeds only help): the dissipation is shared, as builders share it
+        cond = self.conditions
+        values = parts.e_series(BLEEDER_SERIES, range(2, 8))
+        time_allowed = cond.discharge_time_limit * s.margins.bleeder_time_fraction
+        for k, node in enumerate(nodes):
+            series = parts.find_part("capacitor", node.capacitor_series)
+            r_max = transients.bleeder_for(node.capacitance * (1 + series.tolerance.plus), crest,
+                                           cond.safe_voltage, time_allowed)
+            fitting = values[values <= r_max]
+            bleeder = float(fitting.max()) if fitting.size else float(values[0])
+            nodes[k] = node.model_copy(update={
+                "bleeder": bleeder,
+                "bleeder_power_rating": self._resistor_power(crest ** 2 / bleeder)})
+        transformer = EquivalentTransformer.model_construct(
+            secondary_voltage=v_oc, secondary_resistance=float(built.hv_series_resistance),
+            leakage_inductance=float(built.hv_leakage_inductance), rated_current=c.hv_current,
+            build=block)
+        design = Design.model_construct(mains=self._mains, transformer=transformer,
+                                        rectifier=self._rectifiers[c.rectifier], nodes=nodes,
+                                        conditions=self.conditions)
+        object.__setattr__(design, "_built", built)
+        return design
 
     # ---------------------------------------------------------------- constraints
 
     @cached_property
     def check_names(self) -> tuple:
-        names = ["diode PIV", "diode average current", "diode switch-on surge", "valve PIV",
-                 "valve peak plate current", "valve DC current", "valve reservoir capacitance",
-                 "valve plate-supply impedance", "valve plate voltage"]
-        for k, name in enumerate(self.node_names):
-            names += [f"{name} capacitor voltage", f"{name} capacitor switch-on voltage",
-                      f"{name} capacitor ripple current"]
-            if k > 0:
-                names.append(f"{name} feed rating")
-        return tuple(names)
-
-    RECTIFIER_CHECKS = 9  # the first checks are the rectifier's: their worst is the stress
+        """Names of every assessment check any allowed design can have, from a probe."""
+        probes = []
+        base = [self.variables[i].lower for i in range(len(self.variables))]
+        n = len(self.node_names)
+        for j in range(len(self.spec.choices.rectifiers)):
+            for kind in ("resistor", "choke"):
+                x = np.array(base, float)
+                x[4] = j
+                for k in range(1, n):
+                    opts = self.feed_options[k]
+                    pick = [i for i, o in enumerate(opts) if o.kind == kind] or [0]
+                    x[5 + 2 * n + k - 1] = pick[0]
+                probes.append(x)
+        table = assess_many(self.designs(self.decode(np.array(probes))))
+        return tuple(table.ratios.columns)
 
     def _constraint_info(self):
+        s = self.spec
         out = []
-        for ns in self.spec.nodes:
+        for ns in s.nodes:
             where = "at idle" if ns.at == "idle" else "at full power"
-            out.append(ConstraintInfo(f"{ns.name}.dc_voltage.low",
-                                      f"{ns.name} DC {where} at least "
-                                      f"{format_quantity(ns.dc_voltage - ns.window, 'V')}",
+            out.append(ConstraintInfo(f"{ns.name}.dc_voltage.low", f"{ns.name} DC {where} at "
+                                      f"least {format_quantity(ns.dc_voltage - ns.window, 'V')}",
                                       ns.window, "V"))
-            out.append(ConstraintInfo(f"{ns.name}.dc_voltage.high",
-                                      f"{ns.name} DC {where} at most "
-                                      f"{format_quantity(ns.dc_voltage + ns.window, 'V')}",
+            out.append(ConstraintInfo(f"{ns.name}.dc_voltage.high", f"{ns.name} DC {where} at "
+                                      f"most {format_quantity(ns.dc_voltage + ns.window, 'V')}",
                                       ns.window, "V"))
             if ns.ripple is not None or ns.hum is not None:
                 limit = (f"{format_quantity(ns.ripple, 'V')} p-p" if ns.ripple is not None
-                         else f"{ns.hum:g} dB below DC")
-                out.append(ConstraintInfo(f"{ns.name}.ripple", f"{ns.name} ripple at full "
-                                          f"power within {limit}", 1.0, "ratio"))
-        if self.spec.sag is not None:
-            sg = self.spec.sag
-            out.append(ConstraintInfo("sag", f"sag at {self.node_names[self.spec.sag_node]} "
-                                      f"{100 * sg.target:.3g} % +/- {100 * sg.tolerance:.3g} %",
-                                      sg.tolerance, "%"))
-        out.append(ConstraintInfo("converged", "steady-state solution converged", 1.0,
-                                  "converged"))
+                         else f"{ns.hum:g} dB below its DC")
+                out.append(ConstraintInfo(f"{ns.name}.ripple", f"{ns.name} ripple at full power "
+                                          f"within {limit}", 1.0, "ratio"))
+        if s.sag is not None:
+            sg = s.sag
+            node = self.node_names[s.sag_node]
+            out.append(ConstraintInfo("sag", f"static sag at {node} {100 * sg.target:.3g} % "
+                                      f"+/- {100 * sg.tolerance:.3g} %", sg.tolerance, "%"))
+            for what in ("attack", "recovery"):
+                window = getattr(sg, what)
+                if window is None:
+                    continue
+                if window.min is not None:
+                    out.append(ConstraintInfo(f"sag.{what}.min", f"sag {what} time at {node} at "
+                                              f"least {format_quantity(window.min, 's')}",
+                                              window.min, "s"))
+                if window.max is not None:
+                    out.append(ConstraintInfo(f"sag.{what}.max", f"sag {what} time at {node} at "
+                                              f"most {format_quantity(window.max, 's')}",
+                                              window.max, "s"))
+        out.append(ConstraintInfo("transformer.buildable", "the transformer can be wound: wire "
+                                  "available, stack in range, voltage reachable, design "
+                                  "converged", 1.0, "flag"))
+        for name in self.node_names:
+            out.append(ConstraintInfo(f"{name}.capacitor_made", f"the {name} capacitor value is "
+                                      "made at its voltage rating in its series", 1.0, "flag"))
         for name in self.check_names:
-            out.append(ConstraintInfo(f"check: {name}", f"{name} within its rating", 1.0,
-                                      "ratio"))
+            out.append(ConstraintInfo(f"check: {name}", f"{name} within its rating", 1.0, "ratio"))
+        out.append(ConstraintInfo("check: other", "any further check within its rating", 1.0,
+                                  "ratio"))
         return out
 
     # ---------------------------------------------------------------- evaluation
 
     def evaluate(self, X):
         """Objectives and constraints of a population: (F (B, 3), G (B, M))."""
-        a = self.assess(self.decode(X))
-        return a.F, a.G
+        scored = self.score(self.designs(self.decode(X)))
+        return scored.F, scored.G
 
-    def assess(self, candidates, designs=None, steps=None) -> Assessment:
-        """Solve and score candidates (see the module docstring).
-
-        Parameters
-        ----------
-        candidates : list of Candidate
-        designs : list of Design, optional
-            Their designs, if already built (e.g. read from files).
-        steps : int, optional
-            Solver steps per half mains cycle; default this binding's setting.
-        """
-        steps = steps or self.steps
+    def score(self, designs) -> Scored:
+        """Assess, price and score designs (built by :meth:`designs`, or read from files)."""
         s = self.spec
-        count = len(candidates)
-        n = len(s.nodes)
-        if designs is None:
-            designs = [self.design(c) for c in candidates]
-        # four operating points per candidate, solved together: nominal/high x idle/full
-        high = 1.0 + s.mains.tolerance
-        points = (("idle", 1.0), ("full", 1.0), ("idle", high), ("full", high))
-        variants, scales = [], []
-        for loads, scale in points:
-            variants += [self.design(c, loads) for c in candidates]
-            scales += [scale] * count
-        figs = _solve(variants, np.array(scales), steps)
-        op = {name: {k: v[i * count:(i + 1) * count] for k, v in figs.items()}
-              for i, name in enumerate(("nominal_idle", "nominal_full", "high_idle", "high_full"))}
-        vsec = np.array([c.secondary_voltage for c in candidates])
-        rw = np.array([c.winding_resistance for c in candidates])
-        rect = np.array([c.rectifier for c in candidates], dtype=int)
-        cap = np.array([c.capacitance for c in candidates]).reshape(count, n)
-        idle = np.array([ns.idle_current for ns in s.nodes])
-        full = np.array([ns.full_power_current for ns in s.nodes])
-        downstream = np.cumsum(full[::-1])[::-1]  # DC through each node's feed [A]
-        rt = {k: v[rect] for k, v in self.rect.items()}
-        v_peak_high = math.sqrt(2.0) * vsec * high
+        count = len(designs)
+        table = assess_many(designs)
+        fr = table.frame
 
-        # ---- INTERIM rating checks (to be replaced by optimiser.assessment.assess_many)
-        names = self.check_names
-        value = np.full((count, len(names)), np.nan)
-        limit = np.full((count, len(names)), np.nan)
-        ratio = np.full((count, len(names)), np.nan)
-        check_units = [""] * len(names)
+        def columns(name):
+            """The column of a figure, worst over a switchable pair's positions: (B, P)."""
+            cols = [c for c in fr.columns if c == name or c.endswith("/" + name)]
+            if not cols:
+                return np.full((count, 1), np.nan)
+            return np.column_stack([pd.to_numeric(fr[c], errors="coerce").to_numpy(float)
+                                    for c in cols])
 
-        def put(name, val, lim, unit, rat=None):
-            """One check: worst value, its limit, and actual-over-rated (NaN: not applicable)."""
-            j = names.index(name)
-            val = np.broadcast_to(np.asarray(val, float), (count,))
-            lim = np.broadcast_to(np.asarray(lim, float), (count,))
-            with np.errstate(invalid="ignore", divide="ignore"):
-                rat = val / lim if rat is None else rat
-            applicable = np.isfinite(val) & np.isfinite(lim)
-            value[:, j] = np.where(applicable, val, np.nan)
-            limit[:, j] = np.where(applicable, lim, np.nan)
-            ratio[:, j] = np.where(applicable, rat, np.nan)
-            check_units[j] = unit
+        def worst(values):
+            with np.errstate(all="ignore"):
+                return np.where(np.isnan(values).all(axis=1), np.nan,
+                                np.nanmax(np.where(np.isnan(values), -np.inf, values), axis=1))
 
-        piv = op["high_idle"]["piv"]
-        si = rt["diodes"] > 0
-        put("diode PIV", np.where(si, piv, np.nan), rt["v_rrm"], "V")
-        put("diode average current", np.where(si, op["high_full"]["rectifier_average_current"],
-                                              np.nan), rt["i_f_avg"], "A")
-        # a discharged reservoir is a short at switch-on: only the path resistance limits the
-        # first peak (common practice, no source); applies where silicon conducts at once
-        esr0 = np.array([self.esr(0, c) for c in cap[:, 0]])
-        surge = v_peak_high / (rw + esr0 + np.nan_to_num(rt["diode_rs"]) * np.where(
-            rt["diodes"] == 4, 2, 1))
-        put("diode switch-on surge", np.where(rt["silicon_only"] > 0, surge, np.nan),
-            rt["i_fsm"], "A")
-        valve = rt["valves"] > 0
-        put("valve PIV", np.where(valve, piv, np.nan), rt["max_piv"], "V")
-        put("valve peak plate current", np.where(valve, op["high_full"]["rectifier_peak_current"],
-                                                 np.nan), rt["max_peak"], "A")
-        put("valve DC current", np.where(valve, full.sum(), np.nan), rt["max_dc"], "A")
-        tol_plus = self.cap_tables[0]["series"].tolerance.plus
-        put("valve reservoir capacitance", np.where(valve, cap[:, 0] * (1 + tol_plus), np.nan),
-            rt["max_c"], "F")
-        z_min = np.full(count, np.nan)
-        for j, fn in enumerate(self._plate_impedance):
-            if fn is not None:
-                mask = rect == j
-                z_min[mask] = fn(vsec[mask] * high)
-        # a minimum, not a maximum: the plate-supply impedance must be at least z_min
-        put("valve plate-supply impedance", rw, z_min, "ohm (minimum)", rat=z_min / rw)
-        put("valve plate voltage", np.where(valve, vsec * high, np.nan), rt["max_vrms"], "V")
-
-        cap_cost = np.zeros(count)
-        cap_labels = [[None] * count for _ in range(n)]
-        rows = np.arange(count)
-        for k, ns in enumerate(s.nodes):
-            table = self.cap_tables[k]
-            steady = op["high_idle"]["dc_voltage"][:, k] + 0.5 * op["high_idle"]["ripple_pp"][:, k]
-            switch_on = v_peak_high  # INTERIM: the no-load peak while the output valves are cold
-            i_rip = op["high_full"]["capacitor_rms_current"][:, k]
-            c = cap[:, k][:, None]
-            rated = table["rated"][None, :]
-            made = (c >= table["c_min"][None, :] * (1 - 1e-9)) & (
-                c <= table["c_max"][None, :] * (1 + 1e-9))
-            ripple_rating = table["series"].ripple_rating(c, rated)
-            worst = np.maximum(np.maximum(steady[:, None] / rated,
-                                          switch_on[:, None] / table["surge"][None, :]),
-                               i_rip[:, None] / ripple_rating)
-            worst = np.where(made, worst, np.inf)
-            ok = worst <= 1.0
-            # the lowest (cheapest) rating that meets every check, else the nearest miss
-            pick = np.where(ok.any(axis=1), np.argmax(ok, axis=1), np.argmin(worst, axis=1))
-            put(f"{ns.name} capacitor voltage", steady, table["rated"][pick], "V")
-            put(f"{ns.name} capacitor switch-on voltage", switch_on, table["surge"][pick], "V")
-            put(f"{ns.name} capacitor ripple current", i_rip, ripple_rating[rows, pick], "A")
-            cap_cost += table["series"].cost(cap[:, k], table["rated"][pick])
-            for b in range(count):
-                cap_labels[k][b] = (f"{format_quantity(cap[b, k], 'F')} "
-                                    f"{format_quantity(table['rated'][pick[b]], 'V')} "
-                                    f"{table['series'].name}")
-
-        feed_cost = np.zeros(count)
-        feed_labels = [[None] * count for _ in range(n)]
-        factor = s.margins.resistor_power_factor
-        res = self.res
-        for k in range(1, n):
-            opts = self.feed_options[k]
-            idx = np.array([c.feeds[k - 1] for c in candidates], dtype=int)
-            table = self.feed_tables[k]
-            r = table["resistance"][idx]
-            is_choke = table["is_choke"][idx]
-            i_dc = downstream[k]
-            # resistor: the cheapest rating class whose derated power, range and working voltage
-            # fit, run at no more than 1/factor of its rating (common practice, no source: "run
-            # power resistors at about half their rating")
-            power = factor * i_dc ** 2 * r
-            ratio_p = power[:, None] / res["power"][None, :]
-            ratio_v = (i_dc * r)[:, None] / res["max_v"][None, :]
-            in_range = (r[:, None] >= res["r_min"][None, :]) & (r[:, None] <= res["r_max"][None, :])
-            worst = np.where(in_range, np.maximum(ratio_p, ratio_v), np.inf)
-            ok = worst <= 1.0
-            pick = np.where(ok.any(axis=1), np.argmax(ok, axis=1), np.argmin(worst, axis=1))
-            rating = table["rated_current"][idx]
-            put(f"{s.nodes[k].name} feed rating", np.where(is_choke, i_dc, power),
-                np.where(is_choke, rating, res["power"][pick]), "A (choke) or W (resistor)",
-                rat=np.where(is_choke, i_dc / rating, worst[rows, pick]))
-            feed_cost += np.where(is_choke, table["cost"][idx], res["cost"][pick])
-            for b in range(count):
-                feed_labels[k][b] = opts[idx[b]].label + (
-                    "" if is_choke[b] else f" {self.resistor_classes[pick[b]].name}")
-        check_units = tuple(check_units)
-
-        # ---- objectives
-        ni, nf = op["nominal_idle"], op["nominal_full"]
-        sag_k = s.sag_node
-        drop = (ni["dc_voltage"] - nf["dc_voltage"]) / ni["dc_voltage"]
-        if s.sag is not None:
-            regulation = np.abs(drop[:, sag_k] - s.sag.target)
-        else:
-            regulation = drop[:, sag_k]
-        with np.errstate(invalid="ignore"):
-            stress = np.nanmax(np.where(np.isnan(ratio[:, :self.RECTIFIER_CHECKS]), -np.inf,
-                                        ratio[:, :self.RECTIFIER_CHECKS]), axis=1)
-        # INTERIM transformer estimate
-        ct = np.array([s.choices.rectifiers[j].topology == "centre-tap" for j in rect])
-        hv_va = vsec * nf["secondary_rms_current"] * np.where(ct, 2.0, 1.0)
-        other_va = sum(w.voltage * w.current for w in s.heaters + s.auxiliary) + rt["heater_va"]
-        windings = 2 + len(s.heaters) + len(s.auxiliary) + rt["valves"]
-        kg, mass, tx_cost = transformer_estimate(
-            hv_va, nf["winding_loss"], other_va, windings, s.mains.frequency,
-            s.transformer.max_flux_density, self.prices.transformer)
-        cost = tx_cost + rt["price"] + cap_cost + feed_cost
-        F = np.column_stack([cost, regulation, stress])
-
-        # ---- constraints
         g = []
-        for k, ns in enumerate(s.nodes):
-            v = (ni if ns.at == "idle" else nf)["dc_voltage"][:, k]
-            g.append((ns.dc_voltage - ns.window - v) / ns.window)
-            g.append((v - ns.dc_voltage - ns.window) / ns.window)
+        for ns in s.nodes:
+            v = columns(f"{ns.name}.idle_voltage" if ns.at == "idle"
+                        else f"{ns.name}.full_power_voltage")
+            g.append(worst((ns.dc_voltage - ns.window - v) / ns.window))
+            g.append(worst((v - ns.dc_voltage - ns.window) / ns.window))
             if ns.ripple is not None or ns.hum is not None:
-                g.append(nf["ripple_pp"][:, k] / ns.ripple_pp_limit(nf["dc_voltage"][:, k]) - 1.0)
+                ripple = columns(f"{ns.name}.ripple_pp")
+                full_v = columns(f"{ns.name}.full_power_voltage")
+                g.append(worst(ripple / ns.ripple_pp_limit(full_v) - 1.0))
+        sag_name = self.node_names[s.sag_node]
+        drop = columns(f"{sag_name}.static_drop_percent") / 100.0
         if s.sag is not None:
-            g.append((np.abs(drop[:, sag_k] - s.sag.target) - s.sag.tolerance) / s.sag.tolerance)
-        converged = np.ones(count, bool)
-        for o in op.values():
-            converged &= o["converged"].astype(bool)
-        g.append(np.where(converged, -1.0, 1.0))
-        g += list((np.nan_to_num(ratio, nan=0.0) - 1.0).T)
+            off = np.abs(drop - s.sag.target)
+            regulation = worst(off)
+            g.append(worst((off - s.sag.tolerance) / s.sag.tolerance))
+            for what in ("attack", "recovery"):
+                window = getattr(s.sag, what)
+                if window is None:
+                    continue
+                t = columns(f"{sag_name}.{what}_time").astype(float)
+                if window.min is not None:
+                    g.append(worst((window.min - t) / window.min))
+                if window.max is not None:
+                    g.append(worst((t - window.max) / window.max))
+        else:
+            regulation = worst(drop)
+        g.append(np.array([0.0 if _buildable(d) else 1.0 for d in designs]))
+        made = self._made(designs)
+        for k in range(len(s.nodes)):
+            g.append(np.where(made[:, k], -1.0, 1.0))
+        ratios = table.ratios
+        known = [c for c in self.check_names]
+        for name in known:
+            col = ratios[name].to_numpy(float) if name in ratios else np.full(count, np.nan)
+            g.append(np.nan_to_num(col - 1.0, nan=-1.0))
+        others = [c for c in ratios.columns if c not in known]
+        if others:
+            g.append(np.nan_to_num(worst(ratios[others].to_numpy(float)) - 1.0, nan=-1.0))
+        else:
+            g.append(np.full(count, -1.0))
         G = np.column_stack(g)
-        G = np.where(np.isfinite(G), G, 1e6)
+        G = np.where(np.isnan(G), 1e6, G)  # a failed figure is a failed constraint
+
+        lines = [self.parts_list(d) for d in designs]
+        cost = np.array([sum(line.cost for line in ls) for ls in lines])
+        stress = fr["rectifier_stress"].to_numpy(float)
+        F = np.column_stack([cost, regulation, stress])
         F = np.where(np.isfinite(F), F, 1e6)
+        frame = self._frame(designs, lines, F, G, table)
+        return Scored(designs=list(designs), frame=frame, F=F, G=G, table=table)
 
-        # ---- the frame
-        cols = {
-            "secondary_voltage": vsec,
-            "winding_resistance": rw,
-            "rectifier": [s.choices.rectifiers[j].label for j in rect],
-        }
-        for k, name in enumerate(self.node_names):
-            cols[f"{name}.capacitance"] = cap[:, k]
-            cols[f"{name}.capacitor"] = cap_labels[k]
-            if k > 0:
-                cols[f"{name}.feed"] = feed_labels[k]
-        cols.update({"cost": cost, "regulation": regulation, "rectifier_stress": stress,
-                     "feasible": np.all(G <= 0, axis=1)})
-        for f in evaluation.SCALARS:
-            cols[f] = nf[f]
-        for k, name in enumerate(self.node_names):
-            for f in evaluation.NODE_FIGURES:
-                cols[f"{name}.{f}"] = nf[f][:, k]
-            cols[f"{name}.dc_voltage_idle"] = ni["dc_voltage"][:, k]
-            cols[f"{name}.drop"] = drop[:, k]
-            cols[f"{name}.dc_voltage_high_mains_idle"] = op["high_idle"]["dc_voltage"][:, k]
-        cols.update({
-            "worst.piv": piv,
-            "worst.rectifier_peak_current": op["high_full"]["rectifier_peak_current"],
-            "worst.secondary_rms_current": op["high_full"]["secondary_rms_current"],
-            "switch_on.surge_estimate": np.where(rt["silicon_only"] > 0, surge, np.nan),
-            "transformer.hv_va": hv_va,
-            "transformer.other_va": other_va + 0.0 * hv_va,
-            "transformer.copper_loss": nf["winding_loss"],
-            "transformer.core_geometry_cm5": kg,
-            "transformer.mass_estimate": mass,
-            "cost.transformer": tx_cost,
-            "cost.rectifier": rt["price"],
-            "cost.capacitors": cap_cost,
-            "cost.feeds": feed_cost,
-        })
-        for j, name in enumerate(names):
-            cols[f"check: {name}"] = ratio[:, j]
-        frame = pd.DataFrame(cols)
-        return Assessment(candidates=list(candidates), designs=list(designs), frame=frame, F=F,
-                          G=G, check_names=names, check_ratio=ratio, check_value=value,
-                          check_limit=limit, check_units=check_units)
+    def _made(self, designs):
+        out = np.zeros((len(designs), len(self.node_names)), bool)
+        for b, d in enumerate(designs):
+            for k, node in enumerate(d.nodes):
+                series = parts.find_part("capacitor", node.capacitor_series)
+                try:
+                    r = series.rating(node.rated_voltage)
+                except LookupError:
+                    continue
+                out[b, k] = (r.min_capacitance * (1 - 1e-9) <= node.capacitance
+                             <= r.max_capacitance * (1 + 1e-9))
+        return out
+
+    def parts_list(self, design):
+        """The design's parts list (:func:`optimiser.bill.parts_list`) with the spec's price
+        overrides applied to its rectifier valves and diodes."""
+        lines = bill.parts_list(design)
+        overrides = {k.casefold(): v for k, v in self.spec.costs.parts.items()}
+        if not overrides:
+            return lines
+        out = []
+        for line in lines:
+            if line.group == "rectifier":
+                for name, price in overrides.items():
+                    if line.description.casefold().split(" with ")[0].endswith(" " + name):
+                        line = replace(line, unit_cost=price, cost=price * line.quantity,
+                                       source="the spec's costs.parts")
+            out.append(line)
+        return out
+
+    def _frame(self, designs, lines, F, G, table):
+        rows = []
+        for d, ls in zip(designs, lines):
+            t = d.transformer
+            td = d.transformer_design
+            row = {
+                "rectifier": _rectifier_label(d.rectifier),
+                "secondary_voltage": t.build.hv.voltage if t.build is not None else np.nan,
+                "hv_current_rating": t.rated_current,
+                "core": t.build.core if t.build is not None else None,
+                "stack": t.build.stack if t.build is not None else np.nan,
+                "current_density": t.build.current_density if t.build is not None else np.nan,
+                "open_circuit_voltage": t.secondary_voltage,
+                "secondary_resistance": t.secondary_resistance,
+                "leakage_inductance": t.leakage_inductance,
+            }
+            for k, node in enumerate(d.nodes):
+                row[f"{node.name}.capacitance"] = node.capacitance
+                row[f"{node.name}.rated_voltage"] = node.rated_voltage
+                row[f"{node.name}.capacitor_series"] = node.capacitor_series
+                row[f"{node.name}.esr"] = node.esr
+                if node.feed is not None:
+                    row[f"{node.name}.feed_resistance"] = node.feed.resistance
+                    row[f"{node.name}.feed_inductance"] = node.feed.inductance
+                    row[f"{node.name}.feed_rating"] = (node.feed.current_rating
+                                                       if node.feed.inductance > 0
+                                                       else node.feed.power_rating)
+                row[f"{node.name}.bleeder"] = node.bleeder if node.bleeder else np.nan
+            groups = {}
+            for line in ls:
+                groups[line.group] = groups.get(line.group, 0.0) + line.cost
+            for group, value in groups.items():
+                row[f"cost.{group}"] = value
+            if td is not None:
+                for key in ("secondary_va", "primary_va", "mass", "temperature_rise",
+                            "temperature_rise_limit", "build_ratio", "flux_density",
+                            "hv_regulation", "total_loss"):
+                    row[f"transformer.{key}"] = float(getattr(td, key))
+            rows.append(row)
+        mine = pd.DataFrame(rows)
+        for i, name in enumerate(OBJECTIVES):
+            mine.insert(1 + i, name, F[:, i])
+        mine.insert(1 + len(OBJECTIVES), "feasible", np.all(G <= 0, axis=1))
+        assessed = table.frame.drop(columns=["rectifier_stress"], errors="ignore")
+        checks = table.ratios.add_prefix("check: ")
+        return pd.concat([mine, assessed.reset_index(drop=True),
+                          checks.reset_index(drop=True)], axis=1)
 
 
-def _solve(designs, mains_scale, steps):
-    """Steady-state figures of many designs, grouped by ladder shape; arrays in input order."""
-    groups = {}
-    for i, d in enumerate(designs):
-        groups.setdefault((Batch.structure_of(d), d.valve_path), []).append(i)
-    out = {}
-    for members in groups.values():
-        idx = np.array(members)
-        batch = Batch.from_designs([designs[i] for i in members], mains_scale=mains_scale[idx])
-        model, waves = solve_batch(batch, steps=steps)
-        figs = figures(batch, model, waves)
-        for key, val in figs.items():
-            val = np.asarray(val)
-            if key not in out:
-                out[key] = np.empty((len(designs),) + val.shape[1:], dtype=val.dtype)
-            out[key][idx] = val
-    return out
+def _buildable(design) -> bool:
+    td = design.transformer_design
+    if td is None:
+        return True
+    return bool(td.wire_available and td.stack_in_range and td.regulation_solvable
+                and td.converged)
+
+
+def _rectifier_label(rectifier) -> str:
+    if rectifier.topology == "switchable":
+        return "switchable: " + " / ".join(f"{name} {_rectifier_label(p)}"
+                                           for name, p in rectifier.positions.items())
+    names = " + ".join(str(p) for p in (rectifier.valve, rectifier.diode) if p is not None)
+    return f"{rectifier.topology} {names}".strip()
 
 
 # --------------------------------------------------------------------------------------------
-# The whole job: search, re-check at full resolution, pick the front and its knee
+# The whole job: search, re-check the final population, pick the front and its knee
 
 
 @dataclass(frozen=True)
@@ -928,21 +794,20 @@ class Optimisation:
     spec : Spec
     binding : CoDesign
     search : SearchResult
-        The search, run at the spec's (coarser) solver resolution.
-    assessment : Assessment
-        The final population's distinct designs, re-assessed at the full solver resolution.
+    scored : Scored
+        The final population's distinct designs.
     front : ndarray of int
-        Rows of ``assessment`` that meet every constraint and are non-dominated, by cost.
+        Rows of ``scored`` that meet every constraint and are non-dominated, by cost.
     knee : int or None
-        Row of ``assessment`` recommended (the front's knee), None when the front is empty.
+        Row of ``scored`` recommended (the front's knee); None when the front is empty.
     unmet : tuple of Unmet
         Constraints that no design evaluated during the search met.
     """
 
     spec: Spec
-    binding: "CoDesign"
+    binding: CoDesign
     search: object
-    assessment: Assessment
+    scored: Scored
     front: np.ndarray
     knee: int | None
     unmet: tuple
@@ -953,31 +818,27 @@ class Optimisation:
         return len(self.front) > 0
 
     def nearest(self, count=3):
-        """The designs that came closest: (row, [(ConstraintInfo, value) violated]) pairs."""
-        violation = np.maximum(self.assessment.G, 0.0).sum(axis=1)
+        """The designs that came closest: [(row, [(ConstraintInfo, value) missed])]."""
+        violation = np.maximum(self.scored.G, 0.0).sum(axis=1)
         rows = np.argsort(violation, kind="stable")[:count]
-        out = []
-        for r in rows:
-            missed = [(info, float(g)) for info, g in zip(self.binding.constraints,
-                                                          self.assessment.G[r]) if g > 0]
-            out.append((int(r), missed))
-        return out
+        return [(int(r), [(info, float(g)) for info, g in
+                          zip(self.binding.constraints, self.scored.G[r]) if g > 0])
+                for r in rows]
 
 
 def reported_front(F, feasible, resolution):
     """Rows of the feasible, non-dominated designs, telling apart only objective differences
-    larger than the spec's resolution; of designs that tie, the cheapest is kept. By cost."""
+    larger than the spec's resolution (of designs that tie, the cheapest is kept); by cost."""
     from . import search
 
     steps = np.array([resolution.cost, resolution.regulation, resolution.rectifier_stress])
     coarse = np.where(steps > 0, np.round(F / np.where(steps > 0, steps, 1.0)) * steps, F)
-    order = np.lexsort((F[:, 2], F[:, 1], F[:, 0]))  # ties keep the cheapest
+    order = np.lexsort((F[:, 2], F[:, 1], F[:, 0]))
     rank = np.empty(len(F), int)
     rank[order] = np.arange(len(F))
     rows = np.flatnonzero(feasible)
     rows = rows[np.argsort(rank[rows])]
-    keep = search.non_dominated(coarse[rows])
-    front = rows[np.sort(keep)]
+    front = rows[np.sort(search.non_dominated(coarse[rows]))]
     return front[np.argsort(F[front, 0], kind="stable")]
 
 
@@ -1007,10 +868,10 @@ def optimise(spec: Spec, *, population=None, generations=None, seed=None, worker
                         seed=settings.seed if seed is None else seed,
                         workers=workers or settings.workers, progress=progress)
     candidates = list(dict.fromkeys(binding.decode(result.X)))
-    assessment = binding.assess(candidates, steps=evaluation.STEPS_PER_HALF_CYCLE)
-    front = reported_front(assessment.F, assessment.feasible, spec.search.resolution)
-    knee = int(front[search.knee(assessment.F[front])]) if len(front) else None
+    scored = binding.score(binding.designs(candidates))
+    front = reported_front(scored.F, scored.feasible, spec.search.resolution)
+    knee = int(front[search.knee(scored.F[front])]) if len(front) else None
     unmet = tuple(Unmet(info, float(best)) for info, best in
                   zip(binding.constraints, result.best_constraints) if best > 0)
-    return Optimisation(spec=spec, binding=binding, search=result, assessment=assessment,
-                        front=front, knee=knee, unmet=unmet)
+    return Optimisation(spec=spec, binding=binding, search=result, scored=scored, front=front,
+                        knee=knee, unmet=unmet)

@@ -6,31 +6,35 @@ collected into one :class:`~optimiser.design.DesignError`.
 
 Sections::
 
-    name: wren-combo                 # optional; the results folder name (default: file stem)
+    name: linnet-15                  # optional; the results folder name (default: file stem)
     mains: {voltage: 230 V, frequency: 50 Hz, tolerance: 10 %}
-    ambient: 35 degC                 # air around the parts
+    ambient: 40 degC                 # air around the parts
     nodes:                           # the B+ ladder in order; the first is the reservoir
       - name: plates
-        dc_voltage: 345 V            # target ...
+        dc_voltage: 330 V            # target ...
         window: 15 V                 # ... plus or minus this
         at: idle                     # idle | full-power: where the window applies
-        idle_current: 78 mA
-        full_power_current: 112 mA
-        ripple: 6 V                  # largest ripple p-p, or `hum: 70 dB` (RMS below the DC)
-    sag: {node: plates, target: 8 %, tolerance: 3 %}
-    heaters: [{name: output valves, voltage: 6.3 V, current: 2.5 A, centre_tap: true}]
-    auxiliary: [{name: bias, voltage: 50 V, current: 5 mA}]
+        idle_current: 72 mA
+        full_power_current: 100 mA
+        ripple: 30 V                 # largest ripple p-p, or `hum: 70 dB` (RMS below the DC)
+    sag: {node: plates, target: 8 %, tolerance: 3 %}   # optional; attack/recovery windows too
+    heaters: [{name: valve-heaters, voltage: 6.3 V, current: 2.4 A, centre_tap: true}]
+    bias: {voltage: 50 V, current: 10 mA}              # optional auxiliary (bias) winding
     choices:                         # what may be searched
-      secondary_voltage: {min: 260 V, max: 380 V, step: 1 V}
-      winding_resistance: {min: 20 ohm, max: 300 ohm}
-      rectifiers: [{topology: centre-tap, valve: 5AR4}, {topology: bridge, diode: 1N4007}]
-      reservoir: {series: generic-105C-snap-in, min: 22 uF, max: 220 uF}
+      secondary_voltage: {min: 260 V, max: 380 V, step: 1 V}   # HV at rated load, per path
+      rectifiers: [{topology: centre-tap, valve: 5U4G}, {topology: bridge, diode: 1N4007}]
+      reservoir: {series: generic-105C-radial, min: 10 uF, max: 100 uF}
       filter: {series: generic-105C-radial, min: 10 uF, max: 100 uF}
       feeds:
-        screens: {resistance: {min: 220 ohm, max: 4.7 kohm}, chokes: [generic-5H-100mA]}
-    transformer: {max_flux_density: 1.3 T}
-    costs: {parts: {5AR4: 22}}
-    search: {population: 120, generations: 40, seed: 1}
+        screens: {resistance: {min: 220 ohm, max: 4.7 kohm}, chokes: [generic-5H-60mA]}
+    transformer:                     # the physical transformer the search designs
+      cores: [EI-a28, EI-a32, EI-a35]  # default: every core in cores.yaml, all their stacks
+      steel: NO-M27-like
+      current_density: {min: 2 A/mm^2, max: 4.5 A/mm^2}
+      insulation_class: B
+    conditions: {transformer_tolerance: 5 %}   # the design file's conditions (see design.py)
+    costs: {parts: {5U4G: 26}, transformer: {labour_per_winding: 10}}
+    search: {population: 100, generations: 40, seed: 1}
 
 Everything is held as SI floats after validation (fractions as fractions: 8 % is 0.08).
 """
@@ -45,10 +49,11 @@ from typing import Annotated, Literal, Optional
 from pydantic import BeforeValidator, Field, field_validator, model_validator
 
 from . import parts
-from .design import DesignError, _locate, read_yaml, validate
+from .design import Conditions, DesignError, _locate, read_yaml, validate
 from .schema import (
     Capacitance,
     Current,
+    CurrentDensity,
     FluxDensity,
     Fraction,
     Frequency,
@@ -64,6 +69,9 @@ __all__ = [
     "NodeSpec",
     "SagSpec",
     "Winding",
+    "BiasWinding",
+    "TransformerChoices",
+    "PositionOption",
     "RectifierOption",
     "CapacitorChoice",
     "FeedOptions",
@@ -162,9 +170,28 @@ class SagSpec(Strict):
 
 
 class Winding(Strict):
-    """A heater or auxiliary winding on the same transformer."""
+    """A heater winding on the same transformer (voltage end to end, RMS current)."""
 
-    name: str = Field(min_length=1)
+    name: str = Field(pattern=r"^[A-Za-z][A-Za-z0-9_.-]*$")
+    voltage: Annotated[Voltage, Positive]
+    current: Annotated[Current, Positive]
+    centre_tap: bool = False
+
+    @field_validator("name")
+    @classmethod
+    def _not_reserved(cls, name):
+        if name in ("primary", "hv", "bias", "screen", RECTIFIER_HEATER):
+            raise ValueError(f"'{name}' is a name the transformer keeps for its own windings")
+        return name
+
+
+#: Name of the winding the search adds for a valve rectifier's heater.
+RECTIFIER_HEATER = "rectifier-heater"
+
+
+class BiasWinding(Strict):
+    """An auxiliary (bias supply) winding."""
+
     voltage: Annotated[Voltage, Positive]
     current: Annotated[Current, Positive]
     centre_tap: bool = False
@@ -175,8 +202,8 @@ def _known(kind, name):
     return name
 
 
-class RectifierOption(Strict):
-    """One rectifier the search may pick: a topology with its parts (names from the catalogue)."""
+class PositionOption(Strict):
+    """One rectifier: a topology with its parts (names from the catalogue)."""
 
     topology: Literal["bridge", "centre-tap", "hybrid-bridge"]
     diode: Optional[str] = None
@@ -207,7 +234,8 @@ class RectifierOption(Strict):
     def _parts_fit(self):
         t = self.topology
         if t == "bridge" and (self.valve is not None or self.diode is None):
-            raise ValueError("a bridge takes four silicon diodes: give diode (a part name) and no valve")
+            raise ValueError("a bridge takes four silicon diodes: give diode (a part name) and no "
+                             "valve")
         if t == "hybrid-bridge" and (self.valve is None or self.diode is None):
             raise ValueError("a hybrid-bridge needs a valve (the positive pair) and a diode "
                              "(the negative pair)")
@@ -218,17 +246,60 @@ class RectifierOption(Strict):
     @property
     def label(self) -> str:
         """Short readable name, e.g. ``"centre-tap 5AR4"``."""
-        parts_named = " + ".join(p for p in (self.valve, self.diode) if p)
-        return f"{self.topology} {parts_named}"
+        named = " + ".join(p for p in (self.valve, self.diode) if p)
+        return f"{self.topology} {named}"
+
+    @property
+    def centre_tapped(self) -> bool:
+        return self.topology == "centre-tap"
+
+    def members(self):
+        return [self]
+
+
+class RectifierOption(PositionOption):
+    """A rectifier the search may pick, or ``switchable``: two positions on one transformer,
+    selected by a switch, sharing the reservoir (both must use the HV winding alike: both
+    centre-tap, or both bridges)."""
+
+    topology: Literal["bridge", "centre-tap", "hybrid-bridge", "switchable"]
+    positions: Optional[dict[str, PositionOption]] = None
+
+    @model_validator(mode="after")
+    def _parts_fit(self):
+        if self.topology != "switchable":
+            if self.positions is not None:
+                raise ValueError("positions belong to a switchable rectifier only")
+            return PositionOption._parts_fit(self)
+        if not self.positions or len(self.positions) != 2:
+            raise ValueError("a switchable rectifier needs exactly two positions, e.g. "
+                             "{silicon: {...}, valve: {...}}")
+        if self.diode is not None or self.valve is not None:
+            raise ValueError("a switchable rectifier gives diode and valve per position")
+        if len({p.centre_tapped for p in self.positions.values()}) != 1:
+            raise ValueError("both positions must use the HV winding alike (both centre-tap, or "
+                             "both bridges): they share one transformer")
+        return self
+
+    @property
+    def label(self) -> str:
+        if self.topology == "switchable":
+            return "switchable " + " / ".join(f"{n}: {p.label}" for n, p in self.positions.items())
+        return PositionOption.label.fget(self)
+
+    @property
+    def centre_tapped(self) -> bool:
+        if self.topology == "switchable":
+            return next(iter(self.positions.values())).centre_tapped
+        return self.topology == "centre-tap"
 
     @property
     def has_valve(self) -> bool:
-        return self.valve is not None
+        return any(m.valve is not None for m in self.members())
 
-
-class Range(Strict):
-    min: float
-    max: float
+    def members(self):
+        """The rectifiers involved: the positions of a switchable pair, else this one."""
+        return list(self.positions.values()) if self.topology == "switchable" else [self]
 
 
 class VoltageRange(Strict):
@@ -243,9 +314,21 @@ class VoltageRange(Strict):
         return self
 
 
-class ResistanceRange(Strict):
-    min: Annotated[Resistance, Positive]
-    max: Annotated[Resistance, Positive]
+class CurrentRange(Strict):
+    min: Annotated[Current, Positive]
+    max: Annotated[Current, Positive]
+
+    @model_validator(mode="after")
+    def _ordered(self):
+        if self.max <= self.min:
+            raise ValueError("max must be above min")
+        return self
+
+
+class CurrentDensityRange(Strict):
+    min: Annotated[CurrentDensity, Positive]
+    max: Annotated[CurrentDensity, Positive]
+    step: Annotated[CurrentDensity, Positive] = 0.05e6
 
     @model_validator(mode="after")
     def _ordered(self):
@@ -351,10 +434,15 @@ class FeedOptions(Strict):
 
 
 class Choices(Strict):
-    """What the search may vary."""
+    """What the search may vary.
+
+    ``secondary_voltage`` is the HV winding's RMS voltage at its rated current, per conducting
+    path (each half of a centre-tapped winding); ``hv_current`` the RMS current it is rated for
+    (default: from half to three times the total full-power DC current).
+    """
 
     secondary_voltage: VoltageRange
-    winding_resistance: ResistanceRange
+    hv_current: Optional[CurrentRange] = None
     rectifiers: list[RectifierOption] = Field(min_length=1)
     reservoir: CapacitorChoice
     filter: Optional[CapacitorChoice] = None
@@ -372,26 +460,74 @@ class Choices(Strict):
         return names
 
 
-class TransformerSpec(Strict):
-    """Settings of the transformer estimate."""
+def _transformer_data():
+    from .transformer import load_transformer_data
 
-    max_flux_density: Annotated[FluxDensity, Field(gt=0, le=2.0)] = 1.3
+    return load_transformer_data()
+
+
+class TransformerChoices(Strict):
+    """The physical transformer: what the search may pick, and how it is built.
+
+    ``cores`` lists lamination names from ``cores.yaml`` (default: all); every catalogued stack
+    of each is a choice. ``max_flux_density`` defaults to the steel's own limit.
+    """
+
+    primaries: Optional[list[Annotated[Voltage, Positive]]] = None
+    primary_arrangement: Literal["taps", "dual"] = "taps"
+    cores: Optional[list[str]] = None
+    steel: str = "transformer-steel"
+    max_flux_density: Optional[Annotated[FluxDensity, Field(gt=0, le=2.0)]] = None
+    current_density: CurrentDensityRange = CurrentDensityRange(min="2 A/mm^2", max="4.5 A/mm^2")
+    insulation_class: Literal["A", "E", "B", "F", "H"] = "B"
+    screen: bool = True
+    wire: Literal["metric", "awg", "both"] = "metric"
+    mounting: str = ""
+
+    @field_validator("cores")
+    @classmethod
+    def _cores_known(cls, names):
+        data = _transformer_data()
+        for name in names or ():
+            data.core_index(name)  # ValueError naming the known cores
+        if names is not None and not names:
+            raise ValueError("give at least one core, or leave cores out for all of them")
+        return names
+
+    @field_validator("steel")
+    @classmethod
+    def _steel_known(cls, name):
+        _transformer_data().steel_index(name)
+        return name
 
 
 class Margins(Strict):
-    """How hard parts may be run."""
+    """How hard parts may be run (defaults: common practice, no source).
+
+    ``resistor_power_factor``: a resistor's derated power must be this many times its DC
+    dissipation ("run power resistors at about half their rating"). ``bleeder_time_fraction``:
+    the reservoir's bleeder takes the supply to the safe voltage in this fraction of the
+    discharge time limit.
+    """
 
     resistor_power_factor: float = Field(default=2.0, ge=1.0)
+    bleeder_time_fraction: float = Field(default=0.5, gt=0, le=1.0)
 
 
 class TransformerPrices(Strict):
-    base: Optional[float] = Field(default=None, ge=0)
+    """Overrides of the transformer price model (``data/prices.yaml``)."""
+
+    base_cost: Optional[float] = Field(default=None, ge=0)
+    copper_per_kg: Optional[float] = Field(default=None, ge=0)
+    steel_per_kg: Optional[float] = Field(default=None, ge=0)
     labour_per_winding: Optional[float] = Field(default=None, ge=0)
-    price_per_kg: Optional[float] = Field(default=None, ge=0)
 
 
 class Costs(Strict):
-    """Overrides of the bundled price model (currency-neutral cost units)."""
+    """Overrides of the bundled price data (currency-neutral cost units).
+
+    ``parts`` sets the price of a rectifier valve (with its socket) or diode by name.
+    """
 
     parts: dict[str, Annotated[float, Field(ge=0)]] = {}
     transformer: TransformerPrices = TransformerPrices()
@@ -406,17 +542,12 @@ class Resolution(Strict):
 
 
 class SearchSettings(Strict):
-    """The search's budget and reproducibility.
-
-    ``steps_per_half_cycle`` is the steady-state solver's resolution during the search; the final
-    population is re-checked at the full resolution before the front is reported.
-    """
+    """The search's budget and reproducibility."""
 
     population: int = Field(default=120, ge=8, le=5000)
     generations: int = Field(default=40, ge=1, le=10000)
     seed: int = Field(default=1, ge=0)
     workers: int = Field(default=1, ge=1, le=64)
-    steps_per_half_cycle: int = Field(default=64, ge=16, le=1024)
     resolution: Resolution = Resolution()
 
 
@@ -429,9 +560,10 @@ class Spec(Strict):
     nodes: list[NodeSpec] = Field(min_length=1)
     sag: Optional[SagSpec] = None
     heaters: list[Winding] = []
-    auxiliary: list[Winding] = []
+    bias: Optional[BiasWinding] = None
     choices: Choices
-    transformer: TransformerSpec = TransformerSpec()
+    transformer: TransformerChoices = TransformerChoices()
+    conditions: Conditions = Conditions()
     margins: Margins = Margins()
     costs: Costs = Costs()
     search: SearchSettings = SearchSettings()
@@ -475,9 +607,18 @@ def _cross_problems(spec: Spec):
     if spec.sag is not None and spec.sag.node is not None and spec.sag.node not in names:
         out.append((("sag", "node"), f"no node is named '{spec.sag.node}'; nodes: "
                     + ", ".join(names)))
-    if spec.sag is not None and (spec.sag.attack is not None or spec.sag.recovery is not None):
-        out.append((("sag",), "attack and recovery windows need the dynamic sag model, which "
-                    "this build does not have yet; remove them"))
+    primaries = spec.transformer.primaries
+    if primaries is not None and not any(abs(v - spec.mains.voltage) <= 1e-6 * v
+                                         for v in primaries):
+        out.append((("transformer", "primaries"), f"none of them is the mains voltage "
+                    f"{spec.mains.voltage:g} V"))
+    taken = {"mains_low": "mains.tolerance", "mains_high": "mains.tolerance",
+             "ambient": "ambient", "capacitor_series": "choices.reservoir.series"}
+    for key in sorted(set(spec.conditions.model_fields_set) & set(taken)):
+        out.append((("conditions", key), f"set this through {taken[key]} in the spec"))
+    heater_names = [h.name for h in spec.heaters]
+    if len(set(heater_names)) != len(heater_names):
+        out.append((("heaters",), "heater names must be unique"))
     return out
 
 
