@@ -33,6 +33,7 @@ def _parser() -> argparse.ArgumentParser:
     tr.add_argument("design", help="design file (YAML) whose transformer has a build block")
     tr.add_argument("--json", action="store_true", help="print the order sheet as JSON")
     tr.add_argument("--markdown", metavar="FILE", help="also write the order sheet as Markdown")
+    _add_optimise_parser(sub)
     return p
 
 
@@ -209,6 +210,61 @@ def render_supply(result, caution=True) -> str:
 
 
 COMMANDS = {"evaluate": _evaluate, "transformer": _transformer}
+
+
+# ---- railwright optimise (the co-design search)
+
+EXIT_NOTHING_FOUND = 1
+
+
+def _add_optimise_parser(sub):
+    op = sub.add_parser("optimise", help="search a spec for the Pareto front of cost, "
+                        "regulation and rectifier stress")
+    op.add_argument("spec", help="spec file (YAML)")
+    op.add_argument("--out", metavar="DIR", help="results folder (default: results/<spec name>)")
+    op.add_argument("--seed", type=int, help="random seed (default: the spec's)")
+    op.add_argument("--generations", type=int, help="generations (default: the spec's)")
+    op.add_argument("--population", type=int, help="designs per generation (default: the spec's)")
+    op.add_argument("--workers", type=int, help="worker processes (default: the spec's)")
+    op.add_argument("--quiet", action="store_true", help="no progress bar")
+
+
+def _optimise(args) -> int:
+    import time
+    from pathlib import Path
+
+    from .codesign import optimise
+    from .outputs import render_impossible, write_results
+    from .spec import load_spec, spec_name
+
+    for flag in ("seed", "generations", "population", "workers"):
+        value = getattr(args, flag)
+        if value is not None and value < (0 if flag == "seed" else 1):
+            raise DesignError([f"--{flag}: must be at least {0 if flag == 'seed' else 1}, "
+                               f"got {value}"])
+    spec = load_spec(args.spec)
+    spec_text = Path(args.spec).read_text(encoding="utf-8")
+    name = spec_name(spec, args.spec)
+    start = time.perf_counter()
+    result = optimise(spec, population=args.population, generations=args.generations,
+                      seed=args.seed, workers=args.workers,
+                      progress=not args.quiet and sys.stderr.isatty())
+    if not result.found:
+        print(render_impossible(result), file=sys.stderr)
+        return EXIT_NOTHING_FOUND
+    out = Path(args.out) if args.out else Path("results") / name
+    elapsed = time.perf_counter() - start
+    write_results(result, out, spec_text, elapsed=elapsed)
+    knee = result.scored.frame.iloc[result.knee]
+    print(f"{len(result.front)} Pareto designs in {elapsed:.1f} s, written to {out}/")
+    print(f"recommended: {knee['rectifier']}, cost {knee['cost']:.1f}, regulation "
+          f"{100 * knee['regulation']:.2f} %, rectifier stress {knee['rectifier_stress']:.3f} "
+          f"(see {out}/summary.md)")
+    print(CAUTION)
+    return 0
+
+
+COMMANDS["optimise"] = _optimise
 
 
 def main(argv=None) -> int:

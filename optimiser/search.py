@@ -22,8 +22,9 @@ from dataclasses import dataclass, field
 import numpy as np
 from pymoo.core.problem import Problem
 from pymoo.core.repair import Repair
+from pymoo.operators.mutation.pm import PM
 
-__all__ = ["Variable", "IntegerRepair", "VectorProblem", "SearchResult", "run", "non_dominated",
+__all__ = ["Variable", "IntegerRepair", "IndexResetMutation", "VectorProblem", "SearchResult", "run", "non_dominated",
            "random_population", "knee"]
 
 
@@ -105,6 +106,33 @@ class IntegerRepair(Repair):
         return _repair_matrix(X, self.lower, self.upper, self.integer)
 
 
+class IndexResetMutation(PM):
+    """Polynomial mutation, plus a uniform redraw of integer columns.
+
+    Polynomial mutation moves a value by a small step around where it is, which rounds back to
+    the same index nearly always: a categorical choice (which rectifier, which core) would never
+    be revisited once the population agrees on it. Each integer column of each offspring is
+    therefore also redrawn uniformly over its indices with probability ``reset_probability``
+    (default one over the number of variables, the usual per-variable mutation rate).
+    """
+
+    def __init__(self, variables, reset_probability=None, **kwargs):
+        super().__init__(**kwargs)
+        self.lower, self.upper, self.integer, _, _ = _bounds(variables)
+        self.reset_probability = (1.0 / len(variables) if reset_probability is None
+                                  else reset_probability)
+
+    def _do(self, problem, X, *args, random_state=None, **kwargs):
+        X = super()._do(problem, X, *args, random_state=random_state, **kwargs)
+        cols = np.flatnonzero(self.integer & (self.upper > self.lower))
+        if cols.size:
+            redraw = random_state.random((len(X), cols.size)) < self.reset_probability
+            span = self.upper[cols] - self.lower[cols] + 1
+            draws = self.lower[cols] + np.floor(random_state.random((len(X), cols.size)) * span)
+            X[:, cols] = np.where(redraw, draws, X[:, cols])
+        return X
+
+
 _WORKER_DEFINITION = None
 
 
@@ -177,6 +205,7 @@ class SearchResult:
         Least value each constraint reached over every evaluation of the run.
     evaluations : int
     generations : int
+    seed : int
     physics_time : float
         Wall time inside ``definition.evaluate`` (and the workers). [s]
     total_time : float
@@ -194,6 +223,7 @@ class SearchResult:
     best_constraints: np.ndarray
     evaluations: int
     generations: int
+    seed: int
     physics_time: float
     total_time: float
     history: list = field(default_factory=list)
@@ -256,7 +286,7 @@ def _make_callback(objective_names, history, bar):
         def notify(self, algorithm):
             pop = algorithm.pop
             F = pop.get("F")
-            feasible = pop.get("feasible").ravel()
+            feasible = pop.get("FEAS").ravel()
             best = {name: (float(np.min(F[feasible, i])) if feasible.any() else float("nan"))
                     for i, name in enumerate(objective_names)}
             entry = {"generation": int(algorithm.n_gen), "feasible": int(feasible.sum()), **best}
@@ -314,6 +344,7 @@ def run(definition, population=100, generations=40, seed=1, workers=1, progress=
         if initial is not None:
             kwargs["sampling"] = repair._do(problem, np.asarray(initial, float))
         algorithm = NSGA2(pop_size=population, repair=repair, eliminate_duplicates=True,
+                          mutation=IndexResetMutation(problem.variables, eta=20),
                           return_least_infeasible=True, **kwargs)
         history = []
         if progress:
@@ -336,6 +367,6 @@ def run(definition, population=100, generations=40, seed=1, workers=1, progress=
     feasible = np.all(G <= 0, axis=1) if n_constr else np.ones(len(X), bool)
     return SearchResult(X=X, F=F, G=G, feasible=feasible, front=non_dominated(F, feasible),
                         best_constraints=problem.best_constraints.copy(),
-                        evaluations=problem.evaluations, generations=generations,
+                        evaluations=problem.evaluations, generations=generations, seed=seed,
                         physics_time=problem.physics_time,
                         total_time=time.perf_counter() - start, history=history)
