@@ -113,13 +113,14 @@ class IndexResetMutation(PM):
     the same index nearly always: a categorical choice (which rectifier, which core) would never
     be revisited once the population agrees on it. Each integer column of each offspring is
     therefore also redrawn uniformly over its indices with probability ``reset_probability``
-    (default one over the number of variables, the usual per-variable mutation rate).
+    (default half the usual per-variable mutation rate, 0.5 / number of variables: on the demo
+    specs this gave a larger hypervolume than no redraw or the full rate, over two seeds).
     """
 
     def __init__(self, variables, reset_probability=None, **kwargs):
         super().__init__(**kwargs)
         self.lower, self.upper, self.integer, _, _ = _bounds(variables)
-        self.reset_probability = (1.0 / len(variables) if reset_probability is None
+        self.reset_probability = (0.5 / len(variables) if reset_probability is None
                                   else reset_probability)
 
     def _do(self, problem, X, *args, random_state=None, **kwargs):
@@ -139,6 +140,10 @@ _WORKER_DEFINITION = None
 def _worker_init(definition):
     global _WORKER_DEFINITION
     _WORKER_DEFINITION = definition
+
+
+def _worker_ready(_):
+    return _WORKER_DEFINITION is not None
 
 
 def _worker_evaluate(X):
@@ -338,6 +343,10 @@ def run(definition, population=100, generations=40, seed=1, workers=1, progress=
                                initargs=(definition,)) if workers > 1 else None
     bar = None
     try:
+        if pool is not None:
+            # start every worker now, before a progress bar's monitor thread exists (forking a
+            # process that runs threads can deadlock)
+            list(pool.map(_worker_ready, range(workers)))
         problem = VectorProblem(definition, pool=pool, workers=workers)
         repair = IntegerRepair(problem.variables)
         kwargs = {}

