@@ -7,6 +7,7 @@ back along their location to the YAML node they came from.
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import yaml
@@ -122,14 +123,37 @@ def validation_problems(exc: ValidationError, node=None, source="design") -> lis
                 other[: len(loc) - 1] == loc[:-1] and other != loc for other in
                 (tuple(x["loc"]) for x in errors)):
             continue
-        target, dotted = _locate(node, loc) if node is not None else (None, _locate(None, loc)[1])
-        where = source
-        if target is not None and hasattr(target, "start_mark"):
-            where = f"{source}:{target.start_mark.line + 1}:{target.start_mark.column + 1}"
-        text = f"{where}: {dotted}: {_message(e)}" if dotted else f"{where}: {_message(e)}"
-        if text not in lines:
-            lines.append(text)
+        for sub_loc, message in _split_model_problems(loc, _message(e)):
+            text = _positioned(node, sub_loc, message, source)
+            if text not in lines:
+                lines.append(text)
     return lines
+
+
+_PATH = re.compile(r"^([A-Za-z_][A-Za-z0-9_]*(?:\.[A-Za-z0-9_-]+)*): (.*)$", re.S)
+
+
+def _split_model_problems(loc, message):
+    """A cross-field check reports several problems as "a.b: text; c.d: text"; give each its own
+    location below the model's, so each gets its own line number."""
+    pieces = [p.strip() for p in message.split("; ")] if "; " in message else [message]
+    out = []
+    for piece in pieces:
+        m = _PATH.match(piece)
+        if m and "." in m.group(1) or m and m.group(1) in ("rectifier", "transformer", "nodes"):
+            parts = tuple(int(p) if p.isdigit() else p for p in m.group(1).split("."))
+            out.append((loc + parts, m.group(2)))
+        else:
+            out.append((loc, piece))
+    return out
+
+
+def _positioned(node, loc, message, source):
+    target, dotted = _locate(node, loc)
+    where = source
+    if target is not None and hasattr(target, "start_mark"):
+        where = f"{source}:{target.start_mark.line + 1}:{target.start_mark.column + 1}"
+    return f"{where}: {dotted}: {message}" if dotted else f"{where}: {message}"
 
 
 def validate(model_type, data, node=None, source="design"):
