@@ -278,7 +278,11 @@ def test_vector_call_equals_scalar_calls():
 
 def _assert_same(got, want, name):
     """Numbers to 1e-12 relative; text, flags and other values exactly."""
-    if isinstance(want, (bool, np.bool_, str)) or want is None:
+    if isinstance(want, (tuple, list)):
+        assert len(got) == len(want), name
+        for g, w in zip(got, want):
+            _assert_same(g, w, name)
+    elif isinstance(want, (bool, np.bool_, str)) or want is None:
         assert got == want, name
     else:
         assert got == pytest.approx(want, rel=1e-12), name
