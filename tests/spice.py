@@ -199,11 +199,7 @@ def _parse(design) -> _Design:
         raise DesignError("rectifier.valve.perveance is required for a hybrid-bridge")
     needs_silicon = topology != "centre-tap" or perveance is None
     saturation = _quantity(diode, "saturation_current", "current", "rectifier.diode.", required=needs_silicon)
-    emission = diode.get("emission_coefficient")
-    if needs_silicon:
-        if isinstance(emission, bool) or not isinstance(emission, (int, float)) or not emission > 0:
-            raise DesignError(f"rectifier.diode.emission_coefficient must be a number > 0, got {emission!r}")
-        emission = float(emission)
+    emission = _quantity(diode, "emission_coefficient", "fraction", "rectifier.diode.", required=needs_silicon)
     diode_rs = _quantity(diode, "series_resistance", "resistance", "rectifier.diode.", required=False, positive=False)
 
     raw_nodes = design.get("nodes")
@@ -252,7 +248,7 @@ def _parse(design) -> _Design:
         or 0.0,
         topology=topology,
         saturation_current=saturation,
-        emission_coefficient=emission if needs_silicon else None,
+        emission_coefficient=emission,
         diode_resistance=diode_rs or 0.0,
         perveance=perveance,
         nodes=tuple(nodes),
@@ -328,16 +324,19 @@ def _estimate_state(d: _Design, temperature: float) -> dict[str, float]:
     vpk = d.secondary_peak
     rs = d.secondary_resistance + d.leakage_inductance * 2 * math.pi * d.frequency
     voltage = 0.9 * vpk
-    for _ in range(40):
+    peak = 4 * max(_ladder_dc(d, voltage)[1][0], 1e-6)
+    for _ in range(60):
         voltages, feeds = _ladder_dc(d, voltage)
         total = max(feeds[0], 1e-6)
         if d.choke_input:
             new = 2 * vpk / math.pi - total * rs - _path_drop(d, total, temperature)
         else:
+            # The elements enter as their chord resistance at the peak current.
+            chord = _path_drop(d, peak, temperature) / peak
             load_resistance = max(voltage, 1.0) / total
-            phi = _half_conduction_angle(math.pi * (rs + d.nodes[0].esr) / (2 * load_resistance))
-            peak = total * math.pi * (1 - math.cos(phi)) / max(math.sin(phi) - phi * math.cos(phi), 1e-9) / 2
-            new = (vpk - _path_drop(d, peak, temperature)) * math.cos(phi)
+            phi = _half_conduction_angle(math.pi * (rs + d.nodes[0].esr + chord) / (2 * load_resistance))
+            new = vpk * math.cos(phi)
+            peak = 0.5 * peak + 0.25 * total * math.pi * (1 - math.cos(phi)) / max(math.sin(phi) - phi * math.cos(phi), 1e-9)
         new = max(new, 0.05 * vpk)
         if abs(new - voltage) < 1e-7 * vpk:
             voltage = new
@@ -656,7 +655,8 @@ def _settling(steps: np.ndarray, expected_ratio: float) -> tuple[float, float]:
     -------
     ratio : float
         The measured ratio when the last changes shrink geometrically with one consistent ratio in
-        (0, 0.98), else 0 (no clean single-mode decay, e.g. a ringing LC filter).
+        (0, 0.999) (the two ratios within a tenth of the distance from 1), else 0 (no clean
+        single-mode decay, e.g. a ringing LC filter).
     settle : float
         Estimated remaining distance to the periodic steady state: the last change summed over
         the geometric tail of the measured ratio, or else the largest recent change over the
@@ -669,10 +669,11 @@ def _settling(steps: np.ndarray, expected_ratio: float) -> tuple[float, float]:
         norm = float(older @ older)
         ratios.append(float(newer @ older) / norm if norm > 0 else 0.0)
     last = float(np.max(np.abs(steps[-1])))
-    if all(0.0 < r < 0.98 for r in ratios) and abs(ratios[-1] - ratios[0]) <= 0.05:
-        return ratios[-1], last / (1.0 - ratios[-1])
+    r = ratios[-1]
+    if all(0.0 < q < 0.999 for q in ratios) and abs(r - ratios[0]) <= 0.1 * (1.0 - r):
+        return r, last / (1.0 - r)
     recent = float(np.max(np.abs(steps[-2:])))
-    return 0.0, recent / (1.0 - min(max(expected_ratio, max(ratios, default=0.0), 0.0), 0.98))
+    return 0.0, recent / (1.0 - min(max(expected_ratio, max(ratios, default=0.0), 0.0), 0.999))
 
 
 def _chunk_cycles(d: _Design, time_constant: float) -> int:
