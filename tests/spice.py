@@ -44,6 +44,7 @@ __all__ = [
     "netlist",
     "simulate",
     "load_design",
+    "invented_designs",
 ]
 
 NGSPICE = "ngspice"
@@ -931,6 +932,74 @@ def simulate(
     }
     result["wall_time"] = time.perf_counter() - started
     return result
+
+
+# ----------------------------------------------------------------------------------------------
+# Invented designs for the cross-checks and the benchmark
+
+_SILICON = {"saturation_current": "5 nA", "emission_coefficient": 1.8, "series_resistance": "0.03 ohm"}
+
+
+def _invented(topology, secondary_voltage, secondary_resistance, nodes, *, leakage=None, perveance=None, silicon=True):
+    transformer = {"secondary_voltage": secondary_voltage, "secondary_resistance": secondary_resistance}
+    if leakage:
+        transformer["leakage_inductance"] = leakage
+    rectifier = {"topology": topology}
+    if silicon:
+        rectifier["diode"] = dict(_SILICON)
+    if perveance:
+        rectifier["valve"] = {"perveance": perveance}
+    return {
+        "mains": {"voltage": "230 V", "frequency": "50 Hz"},
+        "transformer": transformer,
+        "rectifier": rectifier,
+        "nodes": nodes,
+    }
+
+
+def invented_designs() -> dict[str, dict]:
+    """Invented test cases (not taken from any published or commercial circuit), one per feature.
+
+    Returns fresh dicts on every call, keyed by a short name.
+    """
+    return {
+        # Invented test case: silicon bridge, capacitor input, reservoir with ESR, two nodes.
+        "bridge": _invented("bridge", "300 V", "50 ohm", [
+            {"name": "plates", "capacitance": "100 uF", "esr": "0.2 ohm", "load": {"current": "200 mA"}},
+            {"name": "screens", "feed": {"resistance": "470 ohm"}, "capacitance": "47 uF", "load": {"current": "15 mA"}},
+        ]),
+        # Invented test case: silicon centre-tap (per half-winding values).
+        "centre-tap-silicon": _invented("centre-tap", "280 V", "35 ohm", [
+            {"name": "plates", "capacitance": "68 uF", "load": {"current": "120 mA"}},
+        ]),
+        # Invented test case: valve centre-tap, small reservoir.
+        "centre-tap-valve": _invented("centre-tap", "330 V", "90 ohm", [
+            {"name": "plates", "capacitance": "32 uF", "load": {"current": "110 mA"}},
+        ], perveance="7.07e-4", silicon=False),
+        # Invented test case: silicon bridge with a large leakage inductance.
+        "bridge-leakage": _invented("bridge", "300 V", "20 ohm", [
+            {"name": "plates", "capacitance": "150 uF", "load": {"current": "250 mA"}},
+        ], leakage="150 mH"),
+        # Invented test case: three-node CRC ladder, the last node a resistive load.
+        "crc-ladder": _invented("bridge", "300 V", "50 ohm", [
+            {"name": "plates", "capacitance": "47 uF", "load": {"current": "150 mA"}},
+            {"name": "screens", "feed": {"resistance": "1 kohm"}, "capacitance": "22 uF", "load": {"current": "20 mA"}},
+            {"name": "input", "feed": {"resistance": "10 kohm"}, "capacitance": "22 uF", "load": {"resistance": "100 kohm"}},
+        ]),
+        # Invented test case: hybrid bridge (valve plates up, silicon down).
+        "hybrid-bridge": _invented("hybrid-bridge", "350 V", "60 ohm", [
+            {"name": "plates", "capacitance": "47 uF", "load": {"current": "140 mA"}},
+        ], perveance="1.0e-3"),
+        # Invented test case: choke input (L feed on the first node), no leakage inductance.
+        "choke-input": _invented("bridge", "380 V", "40 ohm", [
+            {"name": "plates", "feed": {"inductance": "10 H", "resistance": "150 ohm"}, "capacitance": "47 uF",
+             "load": {"current": "150 mA"}},
+        ]),
+        # Invented test case: resistive load on a large reservoir.
+        "resistive-load": _invented("bridge", "300 V", "15 ohm", [
+            {"name": "plates", "capacitance": "220 uF", "load": {"resistance": "2.2 kohm"}},
+        ]),
+    }
 
 
 def main(argv=None) -> int:
