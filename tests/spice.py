@@ -6,12 +6,17 @@ circuit simulator, Debian package ``ngspice``) on it, and measures the last full
 numpy, so Railwright's own solver can be checked against a transient of the same circuit.
 
 Steady state is reached by a shooting-style loop: start from an estimated state (reservoir and
-filter capacitor voltages, choke currents), simulate a chunk of whole mains cycles whose length
-scales with the circuit's slowest time constant, read the state at the last cycle boundaries,
-extrapolate the geometric decay of the slow mode (Aitken's delta-squared step) and restart from the
-extrapolated state, until the estimated distance from the periodic steady state is negligible. The
-state at a cycle boundary is complete (capacitor voltages and inductor currents; the source is at
-phase zero), so each restart continues the same trajectory.
+filter capacitor voltages, choke and leakage currents), simulate a run of whole mains cycles whose
+length scales with the circuit's slowest time constant, measure how the cycle means of the state
+still change from cycle to cycle over the last four cycles, extrapolate a clean geometric decay of
+the slow mode (Aitken's delta-squared step) and restart from the extrapolated state, until the
+estimated distance from the periodic steady state is negligible. The state at a cycle boundary is
+complete (capacitor voltages and inductor currents; the source is back at phase zero), so a restart
+continues the same trajectory.
+
+Waveforms are measured on ngspice's own (non-uniform) time points: means and RMS values are
+trapezoidal integrals over exactly one period, with the window ends interpolated in, which is exact
+for the piecewise-linear waveform the points define; no resampling is needed.
 
 Run ``python tests/spice.py design.yaml`` to print the reference result of one design file as JSON.
 """
@@ -119,12 +124,8 @@ class _Design:
         return 1.0 / self.frequency
 
     @property
-    def valve_elements(self) -> bool:
-        """True when the positive-side elements are valve plates."""
-        return self.topology == "hybrid-bridge" or (self.topology == "centre-tap" and self.perveance is not None)
-
-    @property
     def silicon_elements(self) -> bool:
+        """True when any rectifying element is a silicon diode."""
         return not (self.topology == "centre-tap" and self.perveance is not None)
 
     @property
@@ -679,8 +680,7 @@ def _settling(steps: np.ndarray, expected_ratio: float) -> tuple[float, float]:
 
 def _chunk_cycles(d: _Design, time_constant: float) -> int:
     """Cycles per ngspice run: three ``time_constant`` [s], within [8, _MAX_RUN_CYCLES]."""
-    tau = time_constant
-    return int(np.clip(math.ceil(3.0 * tau / d.period), 8, _MAX_RUN_CYCLES))
+    return int(np.clip(math.ceil(3.0 * time_constant / d.period), 8, _MAX_RUN_CYCLES))
 
 
 # ----------------------------------------------------------------------------------------------
@@ -823,8 +823,9 @@ def simulate(
     design : dict or path
         A Railwright design (dict, or path to its YAML file).
     cycles : int, optional
-        If given, simulate exactly this many mains cycles from the estimated state, without the
-        steady-state loop (the residual is still reported). Default: loop until settled.
+        If given, simulate exactly this many mains cycles (>= 4) from the estimated state, without
+        extrapolation or the settling test (in runs of at most 40 cycles, each continuing from the
+        last; residual and settle error are still reported). Default: loop until settled.
     step : float, optional
         Maximum time step. [s] Default one 2000th of the mains period.
     tolerance : float
