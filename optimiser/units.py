@@ -114,7 +114,7 @@ def parse_quantity(text, dimension: str, *, allow_bare_number: bool = False) -> 
     if isinstance(text, bool):
         raise UnitError(f"expected a {dimension} such as '1 {si}'".rstrip() + f", got {text!r}")
     if isinstance(text, (int, float)):
-        if dimension == "fraction" or allow_bare_number:
+        if dimension in ("fraction", "perveance") or allow_bare_number:
             value = float(text)
             if not math.isfinite(value):
                 raise UnitError(f"value must be finite, got {text!r}")

@@ -1,0 +1,587 @@
+"""Everything a builder must check, for one design or a whole population.
+
+Runs each design at its mains and tolerance corners, through the sag step, switch-on and
+switch-off, and compares every part with its ratings. The physics is in :mod:`supply`,
+:mod:`transients` and :mod:`ratings`; this module only chooses the corners and collects figures.
+
+Corners (mains and winding tolerance scale the EMF; capacitor tolerance scales every C):
+
+============  =================  ===========  ==========================================
+corner        EMF                capacitance  loads
+============  =================  ===========  ==========================================
+nominal_idle  1                  nominal      idle
+nominal_full  1                  nominal      full power
+low_full      low mains, -tol    low          full power  (lowest B+, most ripple)
+high_idle     high mains, +tol   high         idle        (highest working B+)
+high_full     high mains, +tol   high         full power  (peak currents, dissipation)
+high_none     high mains, +tol   high         valves cold (switch-on voltages, PIV)
+============  =================  ===========  ==========================================
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from . import parts, ratings, supply, transients
+from .design import Design, load_design
+from .evaluation import Batch, SupplyResult, _groups, _result, figures, solve_batch
+
+__all__ = ["Assessment", "PairAssessment", "AssessmentTable", "assess", "assess_many",
+           "CORNERS"]
+
+CORNERS = ("nominal_idle", "nominal_full", "low_full", "high_idle", "high_full", "high_none")
+#: How long the switch-on charge-up is simulated to find its overshoot. [s]
+CHARGE_UP_TIME = 1.0
+#: The switch-on trajectory is drawn over this span. [s]
+TRAJECTORY_SPAN = 60.0
+
+
+@dataclass(frozen=True)
+class Assessment:
+    """All figures and checks of one design.
+
+    Attributes
+    ----------
+    steady : SupplyResult
+        Periodic steady state at nominal mains and full power.
+    idle : SupplyResult
+        The same at idle.
+    checks : list of ratings.Check
+    rectifier_stress : float
+        Worst actual-to-rated ratio over the rectifier's ratings (NaN: no ratings known). [-]
+    nodes : list of dict
+        Per node: B+ at idle and full power, static drop, window over the corners, sag
+        dynamics, switch-on peak and discharge time (see :meth:`to_dict`).
+    switch_on : dict
+        Surge current, rectifier start and load start times, and (detail) the trajectory.
+    life : dict
+        Capacitor life per node and the rectifier valve's cathode loading.
+    curves : dict
+        (detail) Arrays for plots: sag response and switch-on trajectory.
+    """
+
+    steady: SupplyResult
+    idle: SupplyResult
+    checks: list
+    rectifier_stress: float
+    nodes: list
+    switch_on: dict
+    life: dict
+    curves: dict = field(default=None, repr=False, compare=False)
+
+    @property
+    def passed(self) -> bool:
+        return all(c.passed for c in self.checks)
+
+    def to_dict(self) -> dict:
+        out = self.steady.to_dict()
+        out["checks"] = [c.to_dict() for c in self.checks]
+        out["rectifier_stress"] = self.rectifier_stress
+        out["sag"] = [{k: n[k] for k in ("name", "idle_voltage", "full_power_voltage",
+                                         "static_drop", "static_drop_percent", "depth",
+                                         "attack_time", "recovery_time")}
+                      for n in self.nodes]
+        out["bplus_window"] = [{"name": n["name"], "min": n["window_min"],
+                                "max": n["window_max"]} for n in self.nodes]
+        out["switch_on"] = dict(self.switch_on, nodes=[
+            {"name": n["name"], "peak_voltage": n["switch_on_peak"],
+             "discharge_time": n["discharge_time"]} for n in self.nodes])
+        out["life"] = self.life
+        out["passed"] = self.passed
+        return out
+
+
+@dataclass(frozen=True)
+class PairAssessment:
+    """A switchable pair of branches: each switch position assessed as a design of its own.
+
+    Attributes
+    ----------
+    positions : dict of str -> Assessment
+    """
+
+    positions: dict
+
+    @property
+    def checks(self) -> list:
+        """Every position's checks, named ``<position>/<check>``."""
+        from dataclasses import replace as _replace
+
+        return [_replace(c, name=f"{name}/{c.name}") for name, a in self.positions.items()
+                for c in a.checks]
+
+    @property
+    def rectifier_stress(self) -> float:
+        values = [a.rectifier_stress for a in self.positions.values()]
+        finite = [v for v in values if np.isfinite(v)]
+        return max(finite) if finite else float("nan")
+
+    @property
+    def passed(self) -> bool:
+        return all(a.passed for a in self.positions.values())
+
+    def to_dict(self) -> dict:
+        return {"positions": {name: a.to_dict() for name, a in self.positions.items()},
+                "checks": [c.to_dict() for c in self.checks],
+                "rectifier_stress": self.rectifier_stress, "passed": self.passed}
+
+
+@dataclass(frozen=True)
+class AssessmentTable:
+    """Assessments of many designs, in input order.
+
+    Attributes
+    ----------
+    frame : DataFrame
+        One row per design: scalar figures and ``<node>.<figure>`` columns.
+    ratios : DataFrame
+        One column per check name, ratio <= 1 inside its rating, NaN where not applicable.
+    assessments : list of Assessment
+    """
+
+    frame: pd.DataFrame
+    ratios: pd.DataFrame
+    assessments: list
+
+
+def _tolerances(design: Design):
+    """(capacitance minus, plus) from the conditions, else from the capacitor series."""
+    c = design.conditions
+    if c.capacitor_minus is not None and c.capacitor_plus is not None:
+        return c.capacitor_minus, c.capacitor_plus
+    series = parts.find_part("capacitor", design.nodes[0].capacitor_series or c.capacitor_series)
+    minus = c.capacitor_minus if c.capacitor_minus is not None else series.tolerance.minus
+    plus = c.capacitor_plus if c.capacitor_plus is not None else series.tolerance.plus
+    return minus, plus
+
+
+def _corner_batches(designs):
+    low = np.array([(1 - d.conditions.mains_low) * (1 - d.conditions.transformer_tolerance)
+                    for d in designs])
+    high = np.array([(1 + d.conditions.mains_high) * (1 + d.conditions.transformer_tolerance)
+                     for d in designs])
+    tol = np.array([_tolerances(d) for d in designs])
+    c_low, c_high = 1 - tol[:, 0], 1 + tol[:, 1]
+    spec = {
+        "nominal_idle": (1.0, 1.0, "idle"),
+        "nominal_full": (1.0, 1.0, "full"),
+        "low_full": (low, c_low, "full"),
+        "high_idle": (high, c_high, "idle"),
+        "high_full": (high, c_high, "full"),
+        "high_none": (high, c_high, "none"),
+    }
+    return {name: Batch.from_designs(designs, m, c, loads) for name, (m, c, loads) in spec.items()}
+
+
+def _valve_part(design):
+    v = design.rectifier.valve
+    return parts.find_part("valve", v) if isinstance(v, str) and design.valve_path else None
+
+
+def _diode_part(design):
+    r = design.rectifier
+    has_silicon = r.topology != "centre-tap" or r.valve is None
+    if not has_silicon or not (r.diode is None or isinstance(r.diode, str)):
+        return None
+    from .evaluation import DEFAULT_DIODE
+
+    return parts.find_part("diode", r.diode or DEFAULT_DIODE)
+
+
+def _attr(items, name, default=np.nan):
+    return np.array([default if (x is None or getattr(x, name, None) is None)
+                     else getattr(x, name) for x in items], dtype=float)
+
+
+def _provenance(items, what):
+    return [f"{what} {x.name}: {x.provenance}" if x is not None else "no rating given"
+            for x in items]
+
+
+def _assess_group(designs, detail):
+    batches = _corner_batches(designs)
+    solved = {}
+    for name, batch in batches.items():
+        model, waves = solve_batch(batch)
+        solved[name] = (batch, model, waves, figures(batch, model, waves))
+    count = len(designs)
+    n_nodes = len(designs[0].nodes)
+    names = [n.name for n in designs[0].nodes]
+    freq = designs[0].mains.frequency
+    f = {k: v[3] for k, v in solved.items()}
+
+    # ---- sag: idle -> full -> idle at nominal mains
+    b_idle, m_idle, w_idle, _ = solved["nominal_idle"]
+    b_full = solved["nominal_full"][0]
+    hold = max(d.conditions.sag_hold for d in designs)
+    release = max(d.conditions.sag_release for d in designs)
+    sag = transients.sag_step(m_idle, b_idle.elements, b_idle.peak, freq,
+                              b_idle.values.load_current, b_full.values.load_current, w_idle,
+                              hold, release)
+
+    # ---- switch-on at high mains with the valves cold
+    b_none, m_none, w_none, f_none = solved["high_none"]
+    surge = transients.surge_peak(m_none, b_none.elements, b_none.peak, freq,
+                                  b_none.values.load_current)
+    t_up, v_up = transients.charge_up(m_none, b_none.elements, b_none.peak, freq,
+                                      b_none.values.load_current, CHARGE_UP_TIME)
+    charge_peak = v_up.max(axis=1)
+    steady_peak = np.maximum(f_none["peak_voltage"], f["high_idle"]["peak_voltage"])
+    discharge = transients.discharge_times(b_none.structure, b_none.values, f_none["dc_voltage"],
+                                           np.array([d.conditions.safe_voltage
+                                                     for d in designs]))
+
+    valves = [_valve_part(d) for d in designs]
+    diodes = [_diode_part(d) for d in designs]
+    columns = _check_columns(designs, valves, diodes, solved, surge, charge_peak, steady_peak,
+                             discharge)
+    stress = ratings.rectifier_stress(columns)
+    if stress.size == 0:
+        stress = np.full(count, np.nan)
+
+    # ---- life
+    life = _life(designs, valves, f)
+
+    rectifier_start = np.array([_rectifier_start(d, v) for d, v in zip(designs, valves)])
+    curves = _detail_curves(designs, sag, rectifier_start) if detail else None
+
+    out = []
+    for j, d in enumerate(designs):
+        checks = []
+        for c in columns:
+            ratio = c.ratio[j]
+            if np.isnan(ratio):
+                continue
+            checks.append(ratings.Check(name=c.name, what=c.what, unit=c.unit,
+                                        value=float(c.value[j]), limit=float(c.limit[j]),
+                                        ratio=float(ratio), passed=bool(ratio <= 1.0),
+                                        source=c.source[j]))
+        idle_dc = f["nominal_idle"]["dc_voltage"][j]
+        full_dc = f["nominal_full"]["dc_voltage"][j]
+        nodes = []
+        for k in range(n_nodes):
+            drop = idle_dc[k] - full_dc[k]
+            nodes.append({
+                "name": names[k],
+                "idle_voltage": float(idle_dc[k]),
+                "full_power_voltage": float(full_dc[k]),
+                "static_drop": float(drop),
+                "static_drop_percent": float(100 * drop / idle_dc[k]) if idle_dc[k] else np.nan,
+                "depth": float(sag.depth[j, k]),
+                "attack_time": _finite(sag.attack_time[j, k]),
+                "recovery_time": _finite(sag.recovery_time[j, k]),
+                "window_min": float(f["low_full"]["dc_voltage"][j, k]),
+                "window_max": float(f["high_idle"]["dc_voltage"][j, k]),
+                "ripple_pp_worst": float(f["low_full"]["ripple_pp"][j, k]),
+                "switch_on_peak": float(max(charge_peak[j, k], steady_peak[j, k])),
+                "discharge_time": float(discharge[j, k]),
+            })
+        switch_on = {
+            "surge_current": float(surge[j]),
+            "rectifier_start": float(rectifier_start[j]),
+            "load_start": float(d.conditions.output_valve_warm_up),
+        }
+        design_curves = curves[j] if curves is not None else None
+        out.append(Assessment(
+            steady=_result(d, f["nominal_full"], j, waves=_waves(solved["nominal_full"], j)),
+            idle=_result(d, f["nominal_idle"], j),
+            checks=checks, rectifier_stress=float(stress[j]), nodes=nodes,
+            switch_on=switch_on, life=life[j], curves=design_curves))
+    return out
+
+
+def _finite(x):
+    return float(x) if np.isfinite(x) else None
+
+
+def _waves(solved_corner, j):
+    batch, model, waves, _ = solved_corner
+    return {"time": waves.time, "batch": batch, "model": model, "waves": waves, "index": j}
+
+
+def _rectifier_start(design, valve):
+    if not design.valve_path:
+        return 0.0
+    if valve is not None and valve.warm_up_time is not None:
+        return float(valve.warm_up_time)
+    return float(design.conditions.rectifier_warm_up)
+
+
+def _check_columns(designs, valves, diodes, solved, surge, charge_peak, steady_peak, discharge):
+    f = {k: v[3] for k, v in solved.items()}
+    count = len(designs)
+    col = ratings.column
+    cols = []
+    worst_piv = np.maximum.reduce([f[c]["piv"] for c in ("high_none", "high_idle", "high_full")])
+    hf = f["high_full"]
+    vsrc = _provenance(valves, "valve")
+    has_valve = np.array([v is not None for v in valves])
+
+    def only(mask, values):
+        return np.where(mask, values, np.nan)
+
+    c0 = np.array([d.nodes[0].capacitance for d in designs]) * (1 + np.array(
+        [_tolerances(d)[1] for d in designs]))
+    cols.append(col("valve.reservoir_capacitance", "reservoir capacitance (high tolerance) vs "
+                    "the valve's largest input capacitor", "F", only(has_valve, c0),
+                    _attr(valves, "max_input_capacitance"), vsrc, rectifier=True))
+    cols.append(col("valve.peak_plate_current", "peak plate current, high mains, full power",
+                    "A", only(has_valve, hf["rectifier_peak_current"]),
+                    _attr(valves, "max_peak_current"), vsrc, rectifier=True))
+    cols.append(col("valve.piv", "peak inverse voltage per plate, high mains", "V",
+                    only(has_valve, worst_piv), _attr(valves, "max_piv"), vsrc, rectifier=True))
+    cols.append(col("valve.dc_current", "DC output current, high mains, full power", "A",
+                    only(has_valve, 2 * hf["rectifier_average_current"]),
+                    _attr(valves, "max_dc_current"), vsrc, rectifier=True))
+    impedance = np.array([np.hypot(d.transformer.secondary_resistance,
+                                   2 * np.pi * d.mains.frequency
+                                   * d.transformer.leakage_inductance) for d in designs])
+    min_z = np.array([v.min_plate_impedance_at(d.transformer.secondary_voltage)
+                      if v is not None and v.min_plate_impedance else np.nan
+                      for d, v in zip(designs, valves)], dtype=float)
+    cols.append(col("valve.plate_supply_impedance", "effective plate-supply impedance per plate "
+                    "vs the least the valve asks", "ohm", only(has_valve, impedance), min_z, vsrc,
+                    minimum=True, rectifier=True))
+    plate_rms = np.array([d.transformer.secondary_voltage * (1 + d.conditions.mains_high)
+                          * (1 + d.conditions.transformer_tolerance) for d in designs])
+    cols.append(col("valve.plate_voltage_rms", "RMS plate voltage per plate, high mains", "V",
+                    only(has_valve, plate_rms), _attr(valves, "max_plate_voltage_rms"), vsrc,
+                    rectifier=True))
+    shared = np.array([v is not None and v.heating == "indirect" and d.rectifier.heater_shared
+                       for d, v in zip(designs, valves)])
+    cols.append(col("valve.heater_cathode_voltage", "cathode above a shared heater winding, "
+                    "valves cold, high mains", "V", only(shared, steady_peak[:, 0]),
+                    _attr(valves, "max_heater_cathode_voltage"), vsrc, rectifier=True))
+
+    dsrc = _provenance(diodes, "diode")
+    has_diode = np.array([d is not None for d in diodes])
+    margin = np.array([1 + d.conditions.silicon_piv_margin for d in designs])
+    cols.append(col("diode.piv", "worst reverse voltage plus the asked margin vs V_RRM", "V",
+                    only(has_diode, worst_piv * margin), _attr(diodes, "v_rrm"), dsrc,
+                    rectifier=True))
+    cols.append(col("diode.surge", "switch-on surge at the mains crest, empty reservoir, vs "
+                    "I_FSM", "A", only(has_diode, surge), _attr(diodes, "i_fsm"), dsrc,
+                    rectifier=True))
+    cols.append(col("diode.average_current", "average current per diode, high mains, full "
+                    "power", "A", only(has_diode, hf["rectifier_average_current"]),
+                    _attr(diodes, "i_f_avg"), dsrc, rectifier=True))
+
+    built = [d.transformer_design for d in designs]
+    has_build = np.array([t is not None for t in built])
+    tsrc = "the physical build: McLyman's surface-dissipation rise; IEC 60085 class limit"
+    cols.append(col("transformer.temperature_rise", "winding temperature rise vs the insulation "
+                    "class allowance at the stated ambient", "K",
+                    only(has_build, _attr(built, "temperature_rise")),
+                    _attr(built, "temperature_rise_limit"), tsrc))
+    cols.append(col("transformer.window_fill", "winding build vs the window's room", "-",
+                    only(has_build, _attr(built, "build_ratio")), np.where(has_build, 1.0, np.nan),
+                    "the physical build: layer-by-layer winding build"))
+    cols.append(col("transformer.flux_density", "peak flux density at the highest primary "
+                    "tap voltage vs the steel's limit", "T",
+                    only(has_build, _attr(built, "flux_density")),
+                    _attr(built, "flux_density_limit"), "the steel grade's data"))
+    rated_rms = np.array([d.transformer.rated_current or np.nan for d in designs])
+    cols.append(col("transformer.hv_rms_current", "HV winding RMS current, high mains, full "
+                    "power", "A", hf["secondary_rms_current"], rated_rms,
+                    "the transformer's rated current in the design"))
+
+    for k, node in enumerate(designs[0].nodes):
+        name = node.name
+        nodes = [d.nodes[k] for d in designs]
+        rated = np.array([n.rated_voltage or np.nan for n in nodes])
+        series = [parts.find_part("capacitor", n.capacitor_series or d.conditions.capacitor_series)
+                  for n, d in zip(nodes, designs)]
+        csrc = [f"the design's rated voltage; {s.name}: {s.provenance}" for s in series]
+        cols.append(col(f"capacitor.{name}.voltage", "highest voltage: valves cold or idle, "
+                        "high mains", "V", np.maximum(steady_peak[:, k], 0), rated, csrc))
+        surge_v = np.array([s.rating(r).surge if np.isfinite(r) and _has_rating(s, r) else np.nan
+                            for s, r in zip(series, rated)])
+        cols.append(col(f"capacitor.{name}.surge_voltage", "charge-up overshoot at switch-on vs "
+                        "the surge rating", "V", charge_peak[:, k], surge_v, csrc))
+        ripple_rating = np.array([s.ripple_rating(n.capacitance, r)
+                                  if np.isfinite(r) and _has_rating(s, r) else np.nan
+                                  for s, n, r in zip(series, nodes, rated)])
+        cols.append(col(f"capacitor.{name}.ripple_current", "ripple current, high mains, full "
+                        "power", "A", hf["capacitor_rms_current"][:, k], ripple_rating, csrc))
+        if k > 0 or node.feed is not None:
+            feeds = [n.feed for n in nodes]
+            i_rms = hf["feed_rms_current"][:, k] if k > 0 else hf["secondary_rms_current"]
+            i_dc = np.abs(hf["feed_dc_current"][:, k]) if k > 0 else \
+                2 * hf["rectifier_average_current"]
+            power = np.array([fd.resistance for fd in feeds]) * i_rms ** 2
+            is_choke = np.array([fd.inductance > 0 for fd in feeds])
+            cols.append(col(f"resistor.{name}.dissipation", "dropping resistor dissipation, high "
+                            "mains, full power", "W", np.where(is_choke, np.nan, power),
+                            _attr(feeds, "power_rating"), "the design's power rating"))
+            cols.append(col(f"choke.{name}.current", "choke DC current, high mains, full power",
+                            "A", np.where(is_choke, i_dc, np.nan),
+                            _attr(feeds, "current_rating"), "the design's current rating"))
+        bleed = np.array([n.bleeder or np.nan for n in nodes])
+        cols.append(col(f"bleeder.{name}.dissipation", "bleeder dissipation at the highest "
+                        "voltage", "W", steady_peak[:, k] ** 2 / bleed,
+                        _attr(nodes, "bleeder_power_rating"), "the design's power rating"))
+        limit = np.array([d.conditions.discharge_time_limit for d in designs])
+        cols.append(col(f"bleeder.{name}.discharge_time", "time to fall below the safe voltage "
+                        "after switch-off (valves drawing nothing)", "s", discharge[:, k], limit,
+                        "conditions.discharge_time_limit (common practice, no source; local "
+                        "codes decide)"))
+    return cols
+
+
+def _has_rating(series, rated_voltage):
+    try:
+        series.rating(rated_voltage)
+    except (LookupError, ValueError):
+        return False
+    return True
+
+
+def _life(designs, valves, f):
+    out = []
+    for j, d in enumerate(designs):
+        caps = []
+        for k, node in enumerate(d.nodes):
+            series = parts.find_part("capacitor", node.capacitor_series or
+                                     d.conditions.capacitor_series)
+            entry = {"name": node.name, "series": series.name}
+            if node.rated_voltage is not None and _has_rating(series, node.rated_voltage):
+                life, core = ratings.capacitor_life(
+                    series.rated_life, series.rated_temperature, d.conditions.ambient,
+                    f["nominal_full"]["capacitor_rms_current"][j, k],
+                    series.ripple_rating(node.capacitance, node.rated_voltage),
+                    d.conditions.ripple_self_heating)
+                entry.update(core_temperature=float(core), life_hours=float(life / 3600.0))
+            else:
+                entry.update(core_temperature=None, life_hours=None)
+            caps.append(entry)
+        v = valves[j]
+        valve = None
+        if v is not None:
+            loading, rel = ratings.valve_cathode_loading(
+                2 * f["nominal_full"]["rectifier_average_current"][j], v.max_dc_current)
+            valve = {"name": v.name, "cathode_loading": float(loading),
+                     "relative_life": float(rel)}
+        out.append({"capacitors": caps, "rectifier_valve": valve,
+                    "source": "capacitor: 10 degC rule with ripple self-heating (makers' "
+                              "application notes; common practice); valve: inverse cathode "
+                              "loading (common practice, no source)"})
+    return out
+
+
+def _detail_curves(designs, sag, rectifier_start):
+    """Arrays for plots, per design: the sag response and the switch-on trajectory.
+
+    The trajectory at nominal mains: nothing until the rectifier conducts (silicon at once, a
+    valve after its warm-up), the charge-up with the output valves cold, the idle load once they
+    have warmed up, then the idle steady state to the end of the span.
+    """
+    from .ladder import state_space
+
+    out = []
+    for j, d in enumerate(designs):
+        freq = d.mains.frequency
+        half = 0.5 / freq
+        steps = transients.TRANSIENT_STEPS
+        t_rect = rectifier_start[j]
+        t_load = d.conditions.output_valve_warm_up
+        cold = t_load > t_rect
+        first = Batch.from_designs([d], 1.0, 1.0, "none" if cold else "idle")
+        m1 = state_space(first.structure, first.values)
+        span_a = min(CHARGE_UP_TIME * 2, t_load - t_rect) if cold else CHARGE_UP_TIME * 2
+        n_a = max(1, int(np.ceil(span_a / half)))
+        run_a = supply.step_response(m1, first.elements, first.peak, freq,
+                                     first.values.load_current, np.zeros((1, m1.A.shape[1])),
+                                     np.zeros(1), n_a * half, steps_per_half_cycle=steps)
+        va = transients.half_cycle_means(transients.node_outputs(
+            m1.node_voltage, run_a.state, run_a.drive, first.values.load_current), steps)[0]
+        times = [np.array([0.0, t_rect]), t_rect + (np.arange(va.shape[0]) + 0.5) * half]
+        volts = [np.zeros((2, va.shape[1])), va]
+        if cold:
+            idle = Batch.from_designs([d], 1.0, 1.0, "idle")
+            m2 = state_space(idle.structure, idle.values)
+            n_b = int(np.ceil(CHARGE_UP_TIME * 2 / half))
+            run_b = supply.step_response(m2, idle.elements, idle.peak, freq,
+                                         idle.values.load_current, run_a.state[:, -1],
+                                         run_a.drive[:, -1], n_b * half,
+                                         steps_per_half_cycle=steps, start_time=n_a * half)
+            vb = transients.half_cycle_means(transients.node_outputs(
+                m2.node_voltage, run_b.state, run_b.drive, idle.values.load_current), steps)[0]
+            start_b = max(t_load, t_rect + n_a * half)
+            times += [np.array([start_b]), start_b + (np.arange(vb.shape[0]) + 0.5) * half]
+            volts += [va[-1:], vb]
+        end = max(TRAJECTORY_SPAN, times[-1][-1])
+        times.append(np.array([end]))
+        volts.append(volts[-1][-1:])
+        out.append({
+            "sag_time": sag.time,
+            "sag_voltage": sag.voltage[j],
+            "switch_on_time": np.concatenate(times),
+            "switch_on_voltage": np.concatenate(volts, axis=0),
+            "rectifier_start": float(t_rect),
+            "load_start": float(t_load),
+        })
+    return out
+
+
+def assess_many(designs, *, detail=False) -> AssessmentTable:
+    """Assess many designs; designs of one ladder shape are solved together.
+
+    Parameters
+    ----------
+    designs : list of path, dict or Design
+    detail : bool
+        Also keep the arrays for plots (sag response, switch-on trajectory).
+    """
+    parsed = [load_design(d) for d in designs]
+    # a switchable pair is assessed as one design per switch position
+    flat, owner = [], []
+    for i, d in enumerate(parsed):
+        for name, position in d.positions():
+            flat.append(position)
+            owner.append((i, name))
+    flat_results = [None] * len(flat)
+    for _, members in _groups(flat).items():
+        group = _assess_group([flat[i] for i in members], detail)
+        for i, a in zip(members, group):
+            flat_results[i] = a
+    results = [None] * len(parsed)
+    for (i, name), a in zip(owner, flat_results):
+        if name is None:
+            results[i] = a
+        else:
+            if results[i] is None:
+                results[i] = PairAssessment(positions={})
+            results[i].positions[name] = a
+    rows, ratio_rows = [], []
+    for a in results:
+        row = {"rectifier_stress": a.rectifier_stress, "passed": a.passed}
+        members = a.positions.items() if isinstance(a, PairAssessment) else [(None, a)]
+        for name, one in members:
+            prefix = "" if name is None else f"{name}/"
+            row.update({f"{prefix}{k}": v for k, v in _row(one).items()})
+        rows.append(row)
+        ratio_rows.append({c.name: c.ratio for c in a.checks})
+    return AssessmentTable(frame=pd.DataFrame(rows), ratios=pd.DataFrame(ratio_rows),
+                           assessments=results)
+
+
+def _row(a: Assessment) -> dict:
+    row = {"rectifier_stress": a.rectifier_stress, "passed": a.passed,
+           "surge_current": a.switch_on["surge_current"],
+           "rectifier_peak_current": a.steady.rectifier_peak_current,
+           "secondary_rms_current": a.steady.secondary_rms_current}
+    for n in a.nodes:
+        for key, value in n.items():
+            if key != "name":
+                row[f"{n['name']}.{key}"] = value
+    for node in a.steady.nodes:
+        row[f"{node.name}.ripple_pp"] = node.ripple_pp
+    return row
+
+
+def assess(design, *, detail=True) -> Assessment:
+    """Assess one design (see :func:`assess_many`)."""
+    return assess_many([design], detail=detail).assessments[0]

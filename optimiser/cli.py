@@ -1,0 +1,224 @@
+"""Command line: ``railwright evaluate | transformer | optimise | report``.
+
+Only parses arguments, calls the library and prints. Bad input exits with status 2 and one
+line per problem, never a traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+
+from .design import DesignError
+from .units import format_quantity
+
+EXIT_BAD_INPUT = 2
+
+CAUTION = ("CAUTION: valve amplifier supplies carry lethal voltages and their capacitors hold "
+           "charge after switch-off. Fit bleeders, fuse and earth the chassis, and follow local "
+           "electrical codes and licensed practice.")
+
+
+def _parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="railwright",
+        description="Co-design a valve amplifier's power transformer and HV supply.")
+    sub = p.add_subparsers(dest="command", required=True)
+    ev = sub.add_parser("evaluate", help="steady state and checks of one concrete supply")
+    ev.add_argument("design", help="design file (YAML)")
+    ev.add_argument("--json", action="store_true", help="print one JSON object instead of tables")
+    tr = sub.add_parser("transformer", help="the order sheet of a design's physical transformer")
+    tr.add_argument("design", help="design file (YAML) whose transformer has a build block")
+    tr.add_argument("--json", action="store_true", help="print the order sheet as JSON")
+    tr.add_argument("--markdown", metavar="FILE", help="also write the order sheet as Markdown")
+    return p
+
+
+def _transformer(args) -> int:
+    from .design import load_design
+    from .transformer import order_sheet, order_sheet_markdown
+
+    design = load_design(args.design)
+    if design.transformer_design is None:
+        raise DesignError([f"{args.design}: transformer: no build block; the order sheet needs a "
+                           "physical transformer (see specs/demo-design-build.yaml)"])
+    sheet = order_sheet(design.transformer_design)
+    text = order_sheet_markdown(sheet)
+    if args.markdown:
+        write_text_atomic(args.markdown, text)
+    print(json.dumps(json_ready(sheet), indent=2, allow_nan=False) if args.json else text)
+    return 0
+
+
+def write_text_atomic(path, text):
+    """Write a whole file or nothing: into a temporary file beside it, then rename."""
+    import os
+    import tempfile
+    from pathlib import Path
+
+    target = Path(path)
+    fd, tmp = tempfile.mkstemp(dir=target.parent if str(target.parent) else ".",
+                               prefix=f".{target.name}.")
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+        os.replace(tmp, target)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+
+
+def _evaluate(args) -> int:
+    from .assessment import assess
+
+    result = assess(args.design, detail=False)
+    if args.json:
+        print(json.dumps(json_ready(result.to_dict()), indent=2, allow_nan=False))
+        return 0
+    if hasattr(result, "positions"):
+        print(render_pair(result))
+    else:
+        print(render_assessment(result))
+    return 0
+
+
+def render_pair(pair) -> str:
+    """Both positions of a switchable pair: what the switch changes, then each in full."""
+    names = list(pair.positions)
+    a, b = (pair.positions[n] for n in names)
+    f = format_quantity
+    lines = [f"Switchable pair: '{names[0]}' and '{names[1]}' side by side", ""]
+    header = f"  {'':<34}{names[0]:>16}{names[1]:>16}"
+    lines += [header, "  " + "-" * (len(header) - 2)]
+    for na, nb in zip(a.nodes, b.nodes):
+        for label, key, unit in (("B+ idle", "idle_voltage", "V"),
+                                 ("B+ full power", "full_power_voltage", "V"),
+                                 ("sag depth", "depth", "V"),
+                                 ("switch-on peak", "switch_on_peak", "V")):
+            lines.append(f"  {na['name'] + ' ' + label:<34}{f(na[key], unit, 4):>16}"
+                         f"{f(nb[key], unit, 4):>16}")
+    for label, fa, fb in (
+            ("rectifier peak current", a.steady.rectifier_peak_current,
+             b.steady.rectifier_peak_current),
+            ("winding RMS current", a.steady.secondary_rms_current,
+             b.steady.secondary_rms_current)):
+        lines.append(f"  {label:<34}{f(fa, 'A'):>16}{f(fb, 'A'):>16}")
+    lines.append(f"  {'rectifier stress':<34}{a.rectifier_stress:>16.2f}{b.rectifier_stress:>16.2f}")
+    lines.append(f"  {'all checks pass':<34}{str(a.passed):>16}{str(b.passed):>16}")
+    for name in names:
+        lines += ["", "=" * 30 + f" position '{name}' " + "=" * 30,
+                  render_assessment(pair.positions[name]).rsplit("\n\n", 1)[0]]
+    lines += ["", CAUTION]
+    return "\n".join(lines)
+
+
+def json_ready(value):
+    """Strict JSON: NaN and infinities (a figure that does not apply, a node that never
+    discharges) become null."""
+    if isinstance(value, dict):
+        return {k: json_ready(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [json_ready(v) for v in value]
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+def render_assessment(a) -> str:
+    """Plain-text view of an :class:`~optimiser.assessment.Assessment`: figures, then verdicts."""
+    f = format_quantity
+    lines = [render_supply(a.steady, caution=False), "", "B+ at idle and full power, sag, "
+             "switch-on and switch-off", ""]
+    header = (f"  {'node':<12}{'idle':>9}{'full':>9}{'drop':>7}{'window (corners)':>21}"
+              f"{'attack':>9}{'recover':>9}{'switch-on':>11}{'to safe':>9}")
+    lines += [header, "  " + "-" * (len(header) - 2)]
+
+    def secs(x):
+        return "-" if x is None else f"{1e3 * x:.0f} ms" if x < 1 else f"{x:.1f} s"
+
+    for n in a.nodes:
+        window = f"{n['window_min']:.0f}-{n['window_max']:.0f} V"
+        t_safe = "never" if not math.isfinite(n["discharge_time"]) else secs(n["discharge_time"])
+        lines.append(f"  {n['name']:<12}{n['idle_voltage']:>7.1f} V{n['full_power_voltage']:>7.1f} V"
+                     f"{n['static_drop_percent']:>6.1f}%{window:>21}{secs(n['attack_time']):>9}"
+                     f"{secs(n['recovery_time']):>9}{n['switch_on_peak']:>9.0f} V{t_safe:>9}")
+    so = a.switch_on
+    lines += ["", f"  switch-on surge at the mains crest: {f(so['surge_current'], 'A')}; "
+              f"rectifier conducts after {so['rectifier_start']:.0f} s, output valves after "
+              f"{so['load_start']:.0f} s"]
+    lines += ["", "Checks (worst corner; ratio <= 1 is inside the rating)", ""]
+    header = f"  {'':4}{'check':<34}{'worst':>11}{'limit':>11}{'ratio':>7}  source"
+    lines += [header, "  " + "-" * 100]
+    for c in a.checks:
+        mark = "ok" if c.passed else "FAIL"
+        lines.append(f"  {mark:<4}{c.name:<34}{f(c.value, c.unit):>11}{f(c.limit, c.unit):>11}"
+                     f"{c.ratio:>7.2f}  {c.source[:60]}")
+    stress = a.rectifier_stress
+    lines += ["", f"  rectifier stress: {stress:.2f}" if math.isfinite(stress) else
+              "  rectifier stress: no rectifier ratings known (part given by parameters)"]
+    failed = [c.name for c in a.checks if not c.passed]
+    lines.append(f"  verdict: {'all checks pass' if not failed else 'FAILS ' + ', '.join(failed)}")
+    life = a.life
+    lines += ["", "Life (estimates)"]
+    for cap in life["capacitors"]:
+        if cap["life_hours"] is not None:
+            lines.append(f"  {cap['name']:<12} capacitor core {cap['core_temperature']:.0f} degC, "
+                         f"about {cap['life_hours']:,.0f} h ({cap['series']})")
+    if life["rectifier_valve"]:
+        v = life["rectifier_valve"]
+        lines.append(f"  {v['name']} cathode loading {100 * v['cathode_loading']:.0f} % of its "
+                     f"rating; relative life index {v['relative_life']:.1f}")
+    lines += ["", CAUTION]
+    return "\n".join(lines)
+
+
+def render_supply(result, caution=True) -> str:
+    """A plain-text view of a :class:`~optimiser.evaluation.SupplyResult`."""
+    f = format_quantity
+    lines = ["B+ nodes at steady state (nominal mains)", ""]
+    header = f"  {'node':<14}{'DC':>10}{'ripple p-p':>13}{'ripple rms':>13}{'cap. I rms':>13}"
+    lines += [header, "  " + "-" * (len(header) - 2)]
+    for n in result.nodes:
+        lines.append(f"  {n.name:<14}{f(n.dc_voltage, 'V', 4):>10}{f(n.ripple_pp, 'V'):>13}"
+                     f"{f(n.ripple_rms, 'V'):>13}{f(n.capacitor_rms_current, 'A'):>13}")
+    r = result
+    lines += [
+        "",
+        "Rectifier (per element) and winding",
+        f"  peak current        {f(r.rectifier_peak_current, 'A')}",
+        f"  average current     {f(r.rectifier_average_current, 'A')}",
+        f"  RMS current         {f(r.rectifier_rms_current, 'A')}",
+        f"  conduction          {r.conduction_angle:.0f} degrees of the mains cycle",
+        f"  peak inverse volts  {f(r.piv, 'V')}",
+        f"  winding RMS current {f(r.secondary_rms_current, 'A')}",
+        "",
+        "Power",
+        f"  from the winding    {f(r.input_power, 'W')}",
+        f"  into the loads      {f(r.load_power, 'W')}",
+        f"  rectifier loss      {f(r.rectifier_loss, 'W')}",
+        f"  winding-path loss   {f(r.winding_loss, 'W')}",
+        f"  feeds and ESR loss  {f(r.ladder_loss, 'W')}",
+    ]
+    if not r.converged:
+        lines += ["", "WARNING: the periodic solution did not reach its tolerance."]
+    if caution:
+        lines += ["", CAUTION]
+    return "\n".join(lines)
+
+
+COMMANDS = {"evaluate": _evaluate, "transformer": _transformer}
+
+
+def main(argv=None) -> int:
+    args = _parser().parse_args(argv)
+    try:
+        return COMMANDS[args.command](args)
+    except DesignError as exc:
+        for line in exc.problems:
+            print(f"error: {line}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except LookupError as exc:
+        print(f"error: {exc.args[0] if exc.args else exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT

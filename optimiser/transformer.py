@@ -1,0 +1,2364 @@
+"""Physical design of a valve amplifier's mains power transformer on a scrapless EI core.
+
+The supply simulation sees the transformer as an equivalent source: the open-circuit RMS voltage of
+each conducting path of the high-voltage (HV) secondary, the series resistance per conducting path
+referred to the secondary, and the leakage inductance. This module makes that equivalent physical —
+core, turns, wire, layers, losses, temperature, mass and cost — so a search can trade cost against
+regulation. It works on whole populations: every per-design input is an array, every figure an array.
+
+Method, in the order it is applied
+----------------------------------
+1. Core geometry of a scrapless EI lamination (window 0.5a x 1.5a, outline 3a x 2.5a).
+2. Turns from Faraday's law, V = 4.44 f N B A_c, at the lowest primary voltage.
+3. Wire from the current density, snapped up to a real size (ASTM B258 AWG and/or IEC 60317 metric),
+   with enamel build, turns per layer, layers, interlayer paper and tape between windings.
+4. Mean length of turn of each winding from its place on the bobbin (Steiner's parallel-set formula).
+5. Secondary turns raised so the voltage at rated load meets the target, solved in closed form for
+   the winding resistances of the previous pass, iterated together with 6. to a fixed point.
+6. Temperature rise by McLyman's surface-dissipation rule, dT = 450 psi^0.826, hot resistance by
+   IEC 60028, checked against the IEC 60085 class temperature at the stated ambient.
+7. The equivalent the rectifier sees: R_s = R_path + R_primary (N_path / N_primary)^2, the leakage
+   inductance of two concentric layered windings, and the Thevenin open-circuit voltage.
+
+Conventions
+-----------
+- SI inside (m, m^2, V, A, ohm, H, W, kg, T, Hz); temperatures in degC, rises in K.
+- "Voltage at rated load" of a winding is its Thevenin value V_oc - I_rms R_s with resistive drops only
+  (leakage reactance is left to the rectifier simulation, which models L_s).
+- HV ``centre_tapped``: the voltage and current are per conducting half (a "300-0-300 V" winding has
+  voltage 300 V); a heater's or the bias winding's centre tap is only a tap (voltage end to end).
+- Primary ``taps``: one winding with a tap at every listed voltage, one wire size throughout, sized for
+  the lowest voltage, where the current is largest. Primary ``dual``: two identical windings of the lower
+  voltage for parallel or series connection (voltages [V, 2V]).
+- Infeasible designs give flags, never exceptions; only malformed input raises ``ValueError``.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from dataclasses import dataclass
+from functools import lru_cache
+from pathlib import Path
+from typing import Any, Literal, Sequence
+
+import numpy as np
+from pydantic import Field, ValidationInfo, field_validator, model_validator
+
+from .yamlfile import read_yaml
+from .schema import Strict, unit_field
+from .units import format_quantity
+
+__all__ = [
+    "COPPER_RESISTIVITY_20C",
+    "COPPER_TEMPERATURE_COEFFICIENT_20C",
+    "COPPER_DENSITY",
+    "TransformerData",
+    "load_transformer_data",
+    "copper_resistivity",
+    "awg_diameter",
+    "resistance_per_length",
+    "wire_size_for_current",
+    "turns_for_voltage",
+    "ei_window",
+    "ei_core_area",
+    "ei_magnetic_path_length",
+    "ei_steel_volume",
+    "ei_outline_surface_area",
+    "mean_turn_length",
+    "steinmetz_fit",
+    "steinmetz_loss",
+    "magnetising_field",
+    "mclyman_temperature_rise",
+    "leakage_inductance_layered",
+    "area_product_required",
+    "ei_area_product",
+    "AuxiliaryWinding",
+    "WindingPopulation",
+    "WindingDesign",
+    "TransformerPopulation",
+    "TransformerDesign",
+    "design_population",
+    "TransformerBuild",
+    "HvWindingBlock",
+    "HeaterWindingBlock",
+    "BiasWindingBlock",
+    "build_from_block",
+    "order_sheet",
+    "order_sheet_markdown",
+]
+
+# Annealed copper, IEC 60028 (International standard of resistance for copper).
+COPPER_RESISTIVITY_20C = 0.017241e-6  # [ohm m] = 0.017241 ohm mm^2/m
+COPPER_TEMPERATURE_COEFFICIENT_20C = 0.00393  # [1/K]
+COPPER_DENSITY = 8890.0  # [kg/m^3]
+
+_MU_0 = 4e-7 * math.pi  # [H/m]
+_EMF_FACTOR = math.pi * math.sqrt(2.0)  # 4.44 of the transformer EMF equation, sine wave
+_DATA_DIR = Path(__file__).parent / "data"
+_WIRE_SYSTEMS = ("metric", "awg", "both")
+_RESERVED_NAMES = ("primary", "hv", "bias", "screen")
+_ARRANGEMENTS = ("taps", "dual")
+_FIXED_POINT_PASSES = 14
+_FINAL_PASSES = 8
+_TARGET_BISECTIONS = 12
+_TEMPERATURE_CAP = 1000.0  # [degC]
+
+
+# --------------------------------------------------------------------------------------------
+# Parts data files
+# --------------------------------------------------------------------------------------------
+
+_PositiveLength = unit_field("length", gt=0)
+_NonNegativeLength = unit_field("length", ge=0)
+_PositiveVoltage = unit_field("voltage", gt=0)
+_NonNegativeCurrent = unit_field("current", ge=0)
+_PositiveFrequency = unit_field("frequency", gt=0)
+_PositiveFluxDensity = unit_field("flux_density", gt=0)
+_PositiveSpecificLoss = unit_field("specific_loss", gt=0)
+_PositiveCurrentDensity = unit_field("current_density", gt=0)
+_Temperature = unit_field("temperature")
+_NonNegativeRise = unit_field("temperature_difference", ge=0)
+_Provenance = Field(min_length=1)
+
+
+class CoreEntry(Strict):
+    """One lamination size of ``cores.yaml``."""
+
+    name: str = Field(min_length=1)
+    tongue_width: _PositiveLength
+    stacks: list[_PositiveLength] = Field(min_length=1)
+    provenance: str = _Provenance
+
+
+class BobbinSettings(Strict):
+    wall_thickness: _NonNegativeLength
+    tongue_clearance: _NonNegativeLength
+    outer_clearance: _NonNegativeLength
+    provenance: str = _Provenance
+
+
+class LaminationSettings(Strict):
+    stack_ratio_range: tuple[float, float]
+    core_loss_building_factor: float = Field(ge=1.0)
+    joint_equivalent_gap: _NonNegativeLength
+    provenance: str = _Provenance
+
+    @model_validator(mode="after")
+    def _ordered(self):
+        low, high = self.stack_ratio_range
+        if not 0 < low <= high:
+            raise ValueError(f"stack_ratio_range must be 0 < low <= high, got {self.stack_ratio_range}")
+        return self
+
+
+class CoresFile(Strict):
+    bobbin: BobbinSettings
+    lamination: LaminationSettings
+    cores: list[CoreEntry] = Field(min_length=1)
+
+
+class LossPoint(Strict):
+    frequency: _PositiveFrequency
+    flux_density: _PositiveFluxDensity
+    loss: _PositiveSpecificLoss
+
+
+class SteelEntry(Strict):
+    """One grade of ``steels.yaml``."""
+
+    name: str = Field(min_length=1)
+    description: str
+    max_flux_density: _PositiveFluxDensity
+    density_kg_per_m3: float = Field(gt=0)
+    stacking_factor: float = Field(gt=0, le=1)
+    core_loss: list[LossPoint] = Field(min_length=3)
+    magnetisation: list[tuple[float, float]] = Field(min_length=2)
+    provenance: str = _Provenance
+
+    @field_validator("magnetisation")
+    @classmethod
+    def _increasing(cls, points):
+        b = [p[0] for p in points]
+        h = [p[1] for p in points]
+        if any(x <= 0 for x in b + h) or b != sorted(b) or h != sorted(h) or len(set(b)) != len(b):
+            raise ValueError("magnetisation points must be positive with B and H strictly increasing")
+        return points
+
+    @model_validator(mode="after")
+    def _two_frequencies(self):
+        if len({p.frequency for p in self.core_loss}) < 2 or len({p.flux_density for p in self.core_loss}) < 2:
+            raise ValueError(f"steel {self.name}: core_loss needs points at two frequencies and two flux densities")
+        return self
+
+
+class SteelsFile(Strict):
+    steels: list[SteelEntry] = Field(min_length=1)
+
+
+class AwgSettings(Strict):
+    largest_gauge_number: int = Field(ge=0, le=56)
+    smallest_gauge_number: int = Field(ge=0, le=56)
+    provenance: str = _Provenance
+
+
+class MetricSettings(Strict):
+    nominal_diameters: list[_PositiveLength] = Field(min_length=1)
+    provenance: str = _Provenance
+
+
+class EnamelPoint(Strict):
+    nominal_diameter: _PositiveLength
+    grade_1: _NonNegativeLength
+    grade_2: _NonNegativeLength
+
+
+class EnamelBuild(Strict):
+    points: list[EnamelPoint] = Field(min_length=1)
+    provenance: str = _Provenance
+
+
+class InsulationMaterial(Strict):
+    name: str = Field(min_length=1)
+    description: str
+    thickness: _PositiveLength
+    thermal_class: str
+    provenance: str = _Provenance
+
+
+class InsulationClass(Strict):
+    name: str = Field(min_length=1)
+    temperature: _Temperature
+    provenance: str = _Provenance
+
+
+class InterlayerRule(Strict):
+    up_to_diameter: _PositiveLength
+    material: str
+
+
+class MaterialLayers(Strict):
+    material: str
+    layers: int = Field(default=1, ge=1)
+
+
+class WindingPractice(Strict):
+    lay_factor: float = Field(ge=1.0)
+    bulge_factor: float = Field(ge=1.0)
+    end_margin: _NonNegativeLength
+    minimum_wire_diameter: _PositiveLength
+    interlayer: list[InterlayerRule] = Field(min_length=1)
+    interwinding: MaterialLayers
+    outer_wrap: MaterialLayers
+    screen: MaterialLayers
+    current_density_range: tuple[_PositiveCurrentDensity, _PositiveCurrentDensity]
+    hot_spot_allowance: _NonNegativeRise
+    provenance: str = _Provenance
+
+    @model_validator(mode="after")
+    def _ordered(self):
+        if self.current_density_range[0] >= self.current_density_range[1]:
+            raise ValueError("current_density_range must be [low, high] with low < high")
+        return self
+
+
+class WireFile(Strict):
+    awg: AwgSettings
+    metric: MetricSettings
+    enamel_build: EnamelBuild
+    insulation_materials: list[InsulationMaterial] = Field(min_length=1)
+    insulation_classes: list[InsulationClass] = Field(min_length=1)
+    winding_practice: WindingPractice
+
+
+class PriceExtras(Strict):
+    screen: float = Field(ge=0)
+    tapped_primary: float = Field(ge=0)
+    centre_tap: float = Field(ge=0)
+
+
+class PriceModel(Strict):
+    """The user-editable price model of ``prices.yaml`` (currency-neutral cost units)."""
+
+    currency: str
+    base_cost: float = Field(ge=0)
+    copper_per_kg: float = Field(ge=0)
+    steel_per_kg: float = Field(ge=0)
+    labour_per_winding: float = Field(ge=0)
+    extras: PriceExtras
+    provenance: str = _Provenance
+
+
+@dataclass(frozen=True)
+class WireTable:
+    """Wire sizes offered to the wire choice, ascending bare diameter."""
+
+    diameters: np.ndarray  # [m]
+    labels: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class TransformerData:
+    """Everything the transformer model reads from the data files, validated and in SI.
+
+    Attributes
+    ----------
+    cores, bobbin, lamination : from ``cores.yaml``
+    steels : from ``steels.yaml``
+    wire : from ``wire.yaml``
+    prices : from ``prices.yaml``
+    tongue_widths : np.ndarray
+        Tongue width of every core, in file order. [m]
+    steinmetz : np.ndarray
+        Per steel (k, alpha, beta) of P = k f^alpha B^beta, shape (n_steels, 3). [W/kg, -, -]
+    wire_tables : dict
+        ``"metric"``, ``"awg"``, ``"both"`` -> :class:`WireTable`.
+    """
+
+    cores: tuple[CoreEntry, ...]
+    bobbin: BobbinSettings
+    lamination: LaminationSettings
+    steels: tuple[SteelEntry, ...]
+    wire: WireFile
+    prices: PriceModel
+    tongue_widths: np.ndarray
+    steinmetz: np.ndarray
+    wire_tables: dict
+
+    def core_index(self, name: str) -> int:
+        """Index of the core called ``name``; ``ValueError`` naming the known cores otherwise."""
+        for i, core in enumerate(self.cores):
+            if core.name == name:
+                return i
+        raise ValueError(f"unknown core {name!r}; known cores: {', '.join(c.name for c in self.cores)}")
+
+    def steel_index(self, name: str) -> int:
+        """Index of the steel called ``name``; ``ValueError`` naming the known steels otherwise."""
+        for i, steel in enumerate(self.steels):
+            if steel.name == name:
+                return i
+        raise ValueError(f"unknown steel {name!r}; known steels: {', '.join(s.name for s in self.steels)}")
+
+    def material(self, name: str) -> InsulationMaterial:
+        for m in self.wire.insulation_materials:
+            if m.name == name:
+                return m
+        known = ", ".join(m.name for m in self.wire.insulation_materials)
+        raise ValueError(f"unknown insulation material {name!r}; known: {known}")
+
+    def class_temperature(self, insulation_class: str) -> float:
+        """Thermal class temperature of an insulation class letter. [degC]"""
+        for c in self.wire.insulation_classes:
+            if c.name == insulation_class:
+                return c.temperature
+        known = ", ".join(c.name for c in self.wire.insulation_classes)
+        raise ValueError(f"insulation_class must be one of {known}, got {insulation_class!r}")
+
+
+def _read_yaml(path: Path) -> Any:
+    return read_yaml(path)[0]
+
+
+def _wire_tables(wire: WireFile) -> dict:
+    minimum = wire.winding_practice.minimum_wire_diameter
+    thin, thick = wire.awg.largest_gauge_number, wire.awg.smallest_gauge_number
+    gauges = np.arange(thin, thick - 1, -1)
+    awg = [(float(awg_diameter(n)), f"AWG {n}") for n in gauges]
+    metric = [(d, f"{d * 1e3:.3f} mm") for d in sorted(wire.metric.nominal_diameters)]
+    tables = {}
+    for system, entries in (("awg", awg), ("metric", metric), ("both", sorted(awg + metric))):
+        kept = [(d, label) for d, label in entries if d >= minimum]
+        if not kept:
+            raise ValueError(f"wire.yaml: no {system} wire size is at least the minimum wire diameter")
+        tables[system] = WireTable(np.array([d for d, _ in kept]), tuple(label for _, label in kept))
+    return tables
+
+
+def _load(directory: Path) -> TransformerData:
+    cores = CoresFile.model_validate(_read_yaml(directory / "cores.yaml"))
+    steels = SteelsFile.model_validate(_read_yaml(directory / "steels.yaml"))
+    wire = WireFile.model_validate(_read_yaml(directory / "wire.yaml"))
+    prices = PriceModel.model_validate(_read_yaml(directory / "prices.yaml"))
+    fits = []
+    for steel in steels.steels:
+        pts = steel.core_loss
+        fits.append(steinmetz_fit([p.frequency for p in pts], [p.flux_density for p in pts], [p.loss for p in pts]))
+    data = TransformerData(
+        cores=tuple(cores.cores),
+        bobbin=cores.bobbin,
+        lamination=cores.lamination,
+        steels=tuple(steels.steels),
+        wire=wire,
+        prices=prices,
+        tongue_widths=np.array([c.tongue_width for c in cores.cores]),
+        steinmetz=np.array(fits),
+        wire_tables=_wire_tables(wire),
+    )
+    practice = wire.winding_practice
+    for name in [r.material for r in practice.interlayer] + [
+        practice.interwinding.material,
+        practice.outer_wrap.material,
+        practice.screen.material,
+    ]:
+        data.material(name)
+    return data
+
+
+@lru_cache(maxsize=8)
+def _load_cached(directory: str) -> TransformerData:
+    return _load(Path(directory))
+
+
+def load_transformer_data(directory: str | Path | None = None) -> TransformerData:
+    """Read and validate ``cores.yaml``, ``steels.yaml``, ``wire.yaml`` and ``prices.yaml``.
+
+    Parameters
+    ----------
+    directory : path, optional
+        Folder holding the four files; the package's ``optimiser/data`` when omitted. Results are
+        cached per folder, so edit-and-reload needs a new process.
+    """
+    return _load_cached(str(Path(directory) if directory is not None else _DATA_DIR))
+
+
+# --------------------------------------------------------------------------------------------
+# Physics: copper, wire, core geometry, magnetics, heat
+# --------------------------------------------------------------------------------------------
+
+
+def copper_resistivity(temperature):
+    """Resistivity of annealed copper at a temperature, linear in temperature from 20 degC.
+
+    Parameters
+    ----------
+    temperature : numeric
+        Conductor temperature. [degC]
+
+    Returns
+    -------
+    numeric
+        Resistivity. [ohm m]
+
+    References
+    ----------
+    .. [1] IEC 60028, International standard of resistance for copper: rho_20 = 0.017241 ohm mm^2/m,
+       alpha_20 = 0.00393 /K.
+    """
+    t = np.asarray(temperature, dtype=float)
+    return COPPER_RESISTIVITY_20C * (1.0 + COPPER_TEMPERATURE_COEFFICIENT_20C * (t - 20.0))
+
+
+def awg_diameter(gauge):
+    """Bare diameter of a round American Wire Gauge conductor.
+
+    Parameters
+    ----------
+    gauge : numeric
+        Gauge number n (0000 is -3). [-]
+
+    Returns
+    -------
+    numeric
+        Diameter d = 0.127 mm * 92^((36 - n)/39). [m]
+
+    References
+    ----------
+    .. [1] ASTM B258, Standard Specification for Standard Nominal Diameters and Cross-Sectional Areas
+       of AWG Sizes of Solid Round Wires Used as Electrical Conductors.
+    """
+    n = np.asarray(gauge, dtype=float)
+    return 0.127e-3 * 92.0 ** ((36.0 - n) / 39.0)
+
+
+def resistance_per_length(diameter, temperature=20.0):
+    """DC resistance per unit length of a round copper conductor.
+
+    Parameters
+    ----------
+    diameter : numeric
+        Bare conductor diameter. [m]
+    temperature : numeric
+        Conductor temperature. [degC]
+
+    Returns
+    -------
+    numeric
+        Resistance per length rho(T) / (pi d^2 / 4). [ohm/m]
+
+    References
+    ----------
+    .. [1] IEC 60028 (resistivity and temperature coefficient of annealed copper).
+    """
+    d = np.asarray(diameter, dtype=float)
+    return copper_resistivity(temperature) / (0.25 * np.pi * d * d)
+
+
+def turns_for_voltage(voltage, frequency, flux_density, core_area):
+    """Turns a winding needs for an RMS voltage at a peak flux density (Faraday's law, sine wave).
+
+    Parameters
+    ----------
+    voltage : numeric
+        RMS voltage across the winding. [V]
+    frequency : numeric
+        Mains frequency. [Hz]
+    flux_density : numeric
+        Peak flux density in the core. [T]
+    core_area : numeric
+        Effective (iron) cross-section of the core. [m^2]
+
+    Returns
+    -------
+    numeric
+        Turns N = V / (4.44 f B A_c), not rounded. [-]
+
+    References
+    ----------
+    .. [1] The transformer EMF equation, e.g. C. W. T. McLyman, Transformer and Inductor Design
+       Handbook, 4th ed., CRC Press 2011 (4.44 = pi sqrt 2 for a sine wave).
+    """
+    return np.asarray(voltage, dtype=float) / (_EMF_FACTOR * frequency * np.asarray(flux_density) * core_area)
+
+
+def ei_window(tongue_width):
+    """Window of a scrapless EI lamination: width (winding build direction) and height (traverse).
+
+    Parameters
+    ----------
+    tongue_width : numeric
+        Width a of the centre tongue. [m]
+
+    Returns
+    -------
+    tuple of numeric
+        (0.5 a, 1.5 a). [m]
+
+    References
+    ----------
+    .. [1] Scrapless EI lamination geometry (window 0.5a x 1.5a, outline 3a x 2.5a), widely
+       standardised — from memory — verify.
+    """
+    a = np.asarray(tongue_width, dtype=float)
+    return 0.5 * a, 1.5 * a
+
+
+def ei_core_area(tongue_width, stack, stacking_factor):
+    """Effective iron cross-section of the centre tongue, A_c = a x stack x stacking factor.
+
+    Parameters
+    ----------
+    tongue_width : numeric
+        Tongue width a. [m]
+    stack : numeric
+        Stack height. [m]
+    stacking_factor : numeric
+        Iron fraction of the stack. [-]
+
+    Returns
+    -------
+    numeric
+        A_c. [m^2]
+
+    References
+    ----------
+    .. [1] C. W. T. McLyman, Transformer and Inductor Design Handbook, 4th ed., CRC Press 2011.
+    """
+    return np.asarray(tongue_width, dtype=float) * stack * stacking_factor
+
+
+def ei_magnetic_path_length(tongue_width):
+    """Mean magnetic path length of a scrapless EI core.
+
+    The mean path runs along the centre lines of the half-tongue, yokes and outer leg (each a/2 wide),
+    a rectangle a x 2a, with its four corners rounded to radius a/4 because flux takes the inside of a
+    corner: l_m = 6a - (8 - 2 pi) a/4 = 5.57a.
+
+    Parameters
+    ----------
+    tongue_width : numeric
+        Tongue width a. [m]
+
+    Returns
+    -------
+    numeric
+        l_m. [m]
+
+    References
+    ----------
+    .. [1] Derived from the scrapless EI geometry (window 0.5a x 1.5a, limbs a/2).
+    """
+    a = np.asarray(tongue_width, dtype=float)
+    return 6.0 * a - (8.0 - 2.0 * np.pi) * a / 4.0
+
+
+def ei_steel_volume(tongue_width, stack, stacking_factor):
+    """Iron volume of a scrapless EI stack: (outline 7.5a^2 - two windows 1.5a^2) x stack x SF.
+
+    Parameters
+    ----------
+    tongue_width, stack : numeric
+        Tongue width and stack height. [m]
+    stacking_factor : numeric
+        Iron fraction of the stack. [-]
+
+    Returns
+    -------
+    numeric
+        Volume 6 a^2 x stack x stacking factor. [m^3]
+
+    References
+    ----------
+    .. [1] Derived from the scrapless EI geometry.
+    """
+    a = np.asarray(tongue_width, dtype=float)
+    return 6.0 * a * a * stack * stacking_factor
+
+
+def ei_outline_surface_area(tongue_width, stack, coil_overhang):
+    """Outer surface of the box around an EI core and its coil, for the heat-dissipation rule.
+
+    Parameters
+    ----------
+    tongue_width : numeric
+        Tongue width a; the outline is 3a x 2.5a. [m]
+    stack : numeric
+        Stack height. [m]
+    coil_overhang : numeric
+        How far the coil stands out of each face of the stack. [m]
+
+    Returns
+    -------
+    numeric
+        Surface 2(3a 2.5a) + 2(3a + 2.5a)(stack + 2 overhang). [m^2]
+
+    References
+    ----------
+    .. [1] C. W. T. McLyman, Transformer and Inductor Design Handbook, 4th ed., CRC Press 2011
+       (surface area A_t of the assembled transformer).
+    """
+    a = np.asarray(tongue_width, dtype=float)
+    depth = stack + 2.0 * np.asarray(coil_overhang)
+    return 2.0 * (7.5 * a * a) + 2.0 * (5.5 * a) * depth
+
+
+def mean_turn_length(former_width, former_depth, distance_from_former, build):
+    """Mean length of turn of a winding on a rectangular former.
+
+    A turn at distance d outside a convex former of perimeter P has length P + 2 pi d (Steiner's
+    formula for the parallel set of a convex body); the mean turn sits at the middle of the build.
+
+    Parameters
+    ----------
+    former_width, former_depth : numeric
+        Outside dimensions of the bobbin tube. [m]
+    distance_from_former : numeric
+        Distance of the winding's first layer from the tube surface. [m]
+    build : numeric
+        Radial build of the winding. [m]
+
+    Returns
+    -------
+    numeric
+        MLT = 2 (width + depth) + 2 pi (distance + build / 2). [m]
+
+    References
+    ----------
+    .. [1] J. Steiner's formula for parallel sets of convex bodies (perimeter of a parallel set).
+    """
+    return 2.0 * (np.asarray(former_width) + former_depth) + 2.0 * np.pi * (
+        np.asarray(distance_from_former) + 0.5 * np.asarray(build)
+    )
+
+
+def steinmetz_fit(frequencies, flux_densities, losses):
+    """Least-squares fit of P = k f^alpha B^beta to specific core-loss points, in log space.
+
+    Parameters
+    ----------
+    frequencies : sequence
+        Frequency of each point. [Hz]
+    flux_densities : sequence
+        Peak flux density of each point. [T]
+    losses : sequence
+        Specific loss of each point. [W/kg]
+
+    Returns
+    -------
+    tuple of float
+        (k [W/kg at 1 Hz, 1 T], alpha [-], beta [-]).
+
+    References
+    ----------
+    .. [1] C. P. Steinmetz, "On the law of hysteresis," Trans. AIEE, vol. 9, 1892 (power-law form,
+       here with a frequency exponent as in the usual generalised form).
+    """
+    f = np.log(np.asarray(frequencies, dtype=float))
+    b = np.log(np.asarray(flux_densities, dtype=float))
+    p = np.log(np.asarray(losses, dtype=float))
+    matrix = np.column_stack([np.ones_like(f), f, b])
+    (ln_k, alpha, beta), *_ = np.linalg.lstsq(matrix, p, rcond=None)
+    return float(np.exp(ln_k)), float(alpha), float(beta)
+
+
+def steinmetz_loss(frequency, flux_density, k, alpha, beta):
+    """Specific core loss P = k f^alpha B^beta.
+
+    Parameters
+    ----------
+    frequency : numeric
+        Frequency. [Hz]
+    flux_density : numeric
+        Peak flux density. [T]
+    k, alpha, beta : numeric
+        Fit from :func:`steinmetz_fit`. [W/kg, -, -]
+
+    Returns
+    -------
+    numeric
+        Specific loss. [W/kg]
+
+    References
+    ----------
+    .. [1] C. P. Steinmetz, "On the law of hysteresis," Trans. AIEE, vol. 9, 1892.
+    """
+    return np.asarray(k) * np.asarray(frequency, dtype=float) ** alpha * np.asarray(flux_density) ** beta
+
+
+def magnetising_field(flux_density, curve):
+    """Peak magnetising field for a peak flux density, from (B, H) points of a magnetisation curve.
+
+    Interpolates log H linearly in B between points; beyond the last point it continues the last
+    segment's slope (saturation makes H climb steeply), below the first it takes H proportional to B.
+
+    Parameters
+    ----------
+    flux_density : numeric
+        Peak flux density. [T]
+    curve : sequence of (B, H)
+        Normal magnetisation curve, B and H increasing. [T, A/m]
+
+    Returns
+    -------
+    numeric
+        Peak field strength. [A/m]
+
+    References
+    ----------
+    .. [1] Normal magnetisation curve as given on electrical-steel data sheets.
+    """
+    pts = np.asarray(curve, dtype=float)
+    bs, log_h = pts[:, 0], np.log(pts[:, 1])
+    b = np.asarray(flux_density, dtype=float)
+    slope = (log_h[-1] - log_h[-2]) / (bs[-1] - bs[-2])
+    inside = np.exp(np.interp(b, bs, log_h))
+    above = np.exp(log_h[-1] + slope * (b - bs[-1]))
+    below = pts[0, 1] * b / bs[0]
+    return np.where(b > bs[-1], above, np.where(b < bs[0], below, inside))
+
+
+def mclyman_temperature_rise(total_loss, surface_area):
+    """Temperature rise of a transformer from its surface dissipation, dT = 450 psi^0.826.
+
+    Parameters
+    ----------
+    total_loss : numeric
+        Copper plus core loss. [W]
+    surface_area : numeric
+        Outer surface of the assembled transformer. [m^2]
+
+    Returns
+    -------
+    numeric
+        Average temperature rise above ambient. [K]
+
+    References
+    ----------
+    .. [1] C. W. T. McLyman, Transformer and Inductor Design Handbook, 4th ed., CRC Press 2011
+       (psi in W/cm^2; constants from memory — verify).
+    """
+    psi = np.asarray(total_loss, dtype=float) / (np.asarray(surface_area) * 1e4)
+    return 450.0 * np.maximum(psi, 0.0) ** 0.826
+
+
+def leakage_inductance_layered(turns, mean_turn_length, winding_width, gap, inner_build, outer_build):
+    """Leakage inductance of two concentric layered windings, referred to the winding with ``turns``.
+
+    L = mu_0 N^2 MLT / b_w * (c + (a_1 + a_2) / 3): the field energy between and inside two
+    windings of equal traverse b_w, uniform ampere-turns, gap c, builds a_1 and a_2.
+
+    Parameters
+    ----------
+    turns : numeric
+        Turns of the winding the result is referred to. [-]
+    mean_turn_length : numeric
+        Mean turn length of the whole two-winding arrangement. [m]
+    winding_width : numeric
+        Traverse (width along the tongue) of the windings. [m]
+    gap : numeric
+        Radial space between the two windings' copper. [m]
+    inner_build, outer_build : numeric
+        Radial builds of the two windings. [m]
+
+    Returns
+    -------
+    numeric
+        Leakage inductance. [H]
+
+    References
+    ----------
+    .. [1] C. W. T. McLyman, Transformer and Inductor Design Handbook, 4th ed., CRC Press 2011,
+       leakage inductance of concentric windings (chapter from memory — verify).
+    .. [2] W. M. Flanagan, Handbook of Transformer Design and Applications, 2nd ed., McGraw-Hill 1993.
+    """
+    n = np.asarray(turns, dtype=float)
+    return (
+        _MU_0
+        * n
+        * n
+        * np.asarray(mean_turn_length)
+        / np.asarray(winding_width)
+        * (np.asarray(gap) + (np.asarray(inner_build) + outer_build) / 3.0)
+    )
+
+
+def area_product_required(
+    total_apparent_power,
+    frequency,
+    flux_density,
+    current_density,
+    window_utilisation=0.4,
+    waveform_factor=4.44,
+):
+    """Area product a core needs, A_p = W_a A_c = P_t / (K_f K_u B f J).
+
+    In McLyman's units A_p [cm^4] = P_t 10^4 / (K_f K_u B f J [A/cm^2]); in SI the factors cancel.
+
+    Parameters
+    ----------
+    total_apparent_power : numeric
+        P_t, the sum of the apparent powers of all windings (primary plus secondaries). [VA]
+    frequency : numeric
+        Mains frequency. [Hz]
+    flux_density : numeric
+        Peak flux density. [T]
+    current_density : numeric
+        Current density in the copper. [A/m^2]
+    window_utilisation : numeric
+        K_u, copper area over window area. [-]
+    waveform_factor : numeric
+        K_f, 4.44 for a sine wave. [-]
+
+    Returns
+    -------
+    numeric
+        A_p. [m^4]
+
+    References
+    ----------
+    .. [1] C. W. T. McLyman, Transformer and Inductor Design Handbook, 4th ed., CRC Press 2011
+       (area-product method).
+    """
+    return np.asarray(total_apparent_power, dtype=float) / (
+        waveform_factor * window_utilisation * np.asarray(flux_density) * frequency * np.asarray(current_density)
+    )
+
+
+def ei_area_product(tongue_width, stack, stacking_factor):
+    """Area product W_a A_c of a scrapless EI core (one window times the iron area). [m^4]
+
+    Parameters
+    ----------
+    tongue_width, stack : numeric
+        [m]
+    stacking_factor : numeric
+        [-]
+
+    References
+    ----------
+    .. [1] C. W. T. McLyman, Transformer and Inductor Design Handbook, 4th ed., CRC Press 2011.
+    """
+    width, height = ei_window(tongue_width)
+    return width * height * ei_core_area(tongue_width, stack, stacking_factor)
+
+
+# --------------------------------------------------------------------------------------------
+# Results
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class AuxiliaryWinding:
+    """A heater or bias winding given to :func:`design_population`.
+
+    Attributes
+    ----------
+    name : str
+        Name used in the winding order and on the order sheet.
+    voltage : array_like
+        RMS voltage at rated load, end to end. [V]
+    rms_current : array_like
+        RMS current rating. [A]
+    centre_tapped : bool
+        A centre tap is brought out (hum balance); it carries no extra current.
+    """
+
+    name: str
+    voltage: Any
+    rms_current: Any
+    centre_tapped: bool = False
+
+
+@dataclass(frozen=True)
+class _WindingFigures:
+    """Figures of one winding. In :class:`WindingPopulation` every numeric field is an array of shape
+    (n,); in :class:`WindingDesign` it is a Python scalar.
+
+    Attributes
+    ----------
+    name : str
+        ``"primary"``, ``"hv"``, ``"bias"`` or the heater's name.
+    role : str
+        ``"primary"``, ``"hv"``, ``"bias"`` or ``"heater"``.
+    centre_tapped : bool
+        A centre tap is brought out.
+    conducting_paths : int
+        2 for a centre-tapped HV (each half conducts in turn), else 1.
+    rated_voltage : float
+        Target RMS voltage at rated load per path (primary: the lowest mains voltage). [V]
+    loaded_voltage : float
+        RMS voltage at rated load per path as built, with integer turns (primary: as rated_voltage). [V]
+    no_load_voltage : float
+        RMS voltage per path with every winding unloaded (the primary still carries the core-loss
+        current; the magnetising current, in quadrature, is neglected). [V]
+    rms_current : float
+        RMS current per path at rated load (primary: at the lowest mains voltage, total). [A]
+    turns : float
+        Turns of the whole winding (centre-tapped HV: both halves; primary: to the highest tap,
+        dual: both windings). [-]
+    turns_per_path : float
+        Turns of one conducting path (primary: for the lowest voltage). [-]
+    wire_label : str
+        Wire size as ordered, e.g. ``"0.250 mm"`` or ``"AWG 30"``.
+    wire_diameter : float
+        Bare copper diameter. [m]
+    wire_overall_diameter : float
+        Diameter over the enamel (grade maximum). [m]
+    current_density : float
+        Actual RMS current density in the chosen wire. [A/m^2]
+    turns_per_layer : float
+        [-]
+    layers : float
+        [-]
+    interlayer_thickness : float
+        Paper between layers. [m]
+    build : float
+        Radial build including bulge allowance. [m]
+    distance_from_former : float
+        Where the winding starts, measured from the bobbin tube. [m]
+    mean_turn_length : float
+        [m]
+    wire_length : float
+        Length of copper wire in the whole winding. [m]
+    resistance_20 : float
+        DC resistance of one conducting path at 20 degC (primary: as connected for the lowest
+        voltage). [ohm]
+    resistance_hot : float
+        The same at the computed winding temperature. [ohm]
+    end_to_end_resistance_20 : float
+        Whole winding at 20 degC (dual primary: each of the two windings). [ohm]
+    copper_loss : float
+        At rated load, hot. [W]
+    copper_mass : float
+        [kg]
+    """
+
+    name: str
+    role: str
+    centre_tapped: Any
+    conducting_paths: Any
+    rated_voltage: Any
+    loaded_voltage: Any
+    no_load_voltage: Any
+    rms_current: Any
+    turns: Any
+    turns_per_path: Any
+    wire_label: Any
+    wire_diameter: Any
+    wire_overall_diameter: Any
+    current_density: Any
+    turns_per_layer: Any
+    layers: Any
+    interlayer_thickness: Any
+    build: Any
+    distance_from_former: Any
+    mean_turn_length: Any
+    wire_length: Any
+    resistance_20: Any
+    resistance_hot: Any
+    end_to_end_resistance_20: Any
+    copper_loss: Any
+    copper_mass: Any
+
+
+@dataclass(frozen=True)
+class WindingPopulation(_WindingFigures):
+    __doc__ = "Figures of one winding over a population (numeric fields are arrays of shape (n,)).\n\n" + (
+        _WindingFigures.__doc__ or ""
+    )
+
+
+@dataclass(frozen=True)
+class WindingDesign(_WindingFigures):
+    __doc__ = "Figures of one winding of one design (numeric fields are Python scalars).\n\n" + (
+        _WindingFigures.__doc__ or ""
+    )
+
+
+@dataclass(frozen=True)
+class _TransformerFigures:
+    """Figures of a transformer design. In :class:`TransformerPopulation` every per-design field is an
+    array of shape (n,) (``primary_tap_turns``: (taps, n)); in :class:`TransformerDesign` a scalar.
+
+    Attributes
+    ----------
+    frequency : float
+        Mains frequency (shared). [Hz]
+    primary_voltages : tuple of float
+        Mains voltages, ascending (shared). [V]
+    primary_arrangement : str
+        ``"taps"`` or ``"dual"`` (shared).
+    winding_order : tuple of str
+        From the tube outward, including ``"screen"`` when fitted (shared).
+    insulation_class : str
+        IEC 60085 letter (shared).
+    ambient_temperature : float
+        Stated ambient (shared). [degC]
+    wire_system : str
+        ``"metric"``, ``"awg"`` or ``"both"`` (shared).
+    enamel_grade : int
+        1 or 2 (shared).
+    screen : bool
+        Electrostatic screen fitted (shared).
+    core_index, core_name, tongue_width [m], stack [m], steel_index, steel_name
+        The core chosen.
+    core_area : float
+        Iron cross-section A_c. [m^2]
+    window_area : float
+        One window, 0.5a x 1.5a. [m^2]
+    magnetic_path_length : float
+        [m]
+    winding_width : float
+        Usable traverse between the flanges less the end margins. [m]
+    available_build : float
+        Usable radial space in the window. [m]
+    total_build : float
+        Radial space used by windings, insulation, screen and wrap. [m]
+    build_ratio : float
+        total_build / available_build (> 1 does not fit). [-]
+    fill_factor : float
+        Bare copper area over window area (McLyman's K_u). [-]
+    flux_density : float
+        Peak flux density at the lowest mains voltage with the integer primary turns. [T]
+    flux_density_limit : float
+        Maximum recommended for the steel. [T]
+    primary_tap_turns : array
+        Turns from the start of the primary to each tap (dual: of each winding). [-]
+    windings : tuple
+        Primary first, then HV, bias (if any) and heaters in the order given.
+    primary_rms_current : float
+        At rated load and the lowest mains voltage. [A]
+    magnetising_current : float
+        RMS estimate from the peak ampere-turns over sqrt 2 (sine assumption; the real current is
+        peaky). [A]
+    core_loss_current : float
+        [A]
+    no_load_current : float
+        Primary current with no load, sqrt(I_m^2 + I_c^2). [A]
+    copper_loss, core_loss, total_loss : float
+        At rated load, hot. [W]
+    surface_area : float
+        Outline surface for cooling. [m^2]
+    temperature_rise : float
+        Average rise by McLyman's rule. [K]
+    temperature_rise_limit : float
+        Class temperature - ambient - hot-spot allowance. [K]
+    winding_temperature : float
+        Ambient + rise. [degC]
+    secondary_va : float
+        VA rating, sum of rated V x I_rms over every conducting path of every secondary (a
+        centre-tapped HV counts both halves, as the trade rates it). [VA]
+    primary_va : float
+        Lowest mains voltage x primary RMS current. [VA]
+    area_product : float
+        W_a A_c of the chosen core. [m^4]
+    copper_mass, steel_mass, mass : float
+        mass = copper + core steel (bobbin, varnish and frame not included). [kg]
+    cost : float
+        From the price model. [cost units]
+    hv_open_circuit_voltage : float
+        Thevenin RMS voltage per HV conducting path with the other windings at rated load (the
+        source the rectifier sees). [V]
+    hv_series_resistance : float
+        R_s per conducting path, hot: R_path + R_primary (N_path / N_primary)^2. [ohm]
+    hv_series_resistance_20 : float
+        The same at 20 degC. [ohm]
+    hv_leakage_inductance : float
+        Primary-to-HV leakage referred to one HV conducting path. [H]
+    hv_loaded_voltage : float
+        RMS per HV path at the rated current. [V]
+    hv_regulation : float
+        (hv_open_circuit_voltage - hv_loaded_voltage) / hv_loaded_voltage. [-]
+    max_voltage_error : float
+        Largest |loaded / rated - 1| over the secondaries: what integer turns leave (few turns per
+        volt on large cores make low-voltage heaters coarse). No tolerance is imposed here. [-]
+    current_density_used : float
+        Current density the wire was chosen for. [A/m^2]
+    fits_window, wire_available, flux_ok, temperature_ok, stack_in_range, regulation_solvable,
+    resistance_target_met, converged, feasible : bool
+        Feasibility flags; ``feasible`` is all of them.
+    """
+
+    frequency: float
+    primary_voltages: tuple
+    primary_arrangement: str
+    winding_order: tuple
+    insulation_class: str
+    ambient_temperature: float
+    wire_system: str
+    enamel_grade: int
+    screen: bool
+    core_index: Any
+    core_name: Any
+    tongue_width: Any
+    stack: Any
+    steel_index: Any
+    steel_name: Any
+    core_area: Any
+    window_area: Any
+    magnetic_path_length: Any
+    winding_width: Any
+    available_build: Any
+    total_build: Any
+    build_ratio: Any
+    fill_factor: Any
+    flux_density: Any
+    flux_density_limit: Any
+    primary_tap_turns: Any
+    windings: tuple
+    primary_rms_current: Any
+    magnetising_current: Any
+    core_loss_current: Any
+    no_load_current: Any
+    copper_loss: Any
+    core_loss: Any
+    total_loss: Any
+    surface_area: Any
+    temperature_rise: Any
+    temperature_rise_limit: Any
+    winding_temperature: Any
+    secondary_va: Any
+    primary_va: Any
+    area_product: Any
+    copper_mass: Any
+    steel_mass: Any
+    mass: Any
+    cost: Any
+    hv_open_circuit_voltage: Any
+    hv_series_resistance: Any
+    hv_series_resistance_20: Any
+    hv_leakage_inductance: Any
+    hv_loaded_voltage: Any
+    hv_regulation: Any
+    max_voltage_error: Any
+    current_density_used: Any
+    fits_window: Any
+    wire_available: Any
+    flux_ok: Any
+    temperature_ok: Any
+    stack_in_range: Any
+    regulation_solvable: Any
+    resistance_target_met: Any
+    converged: Any
+    feasible: Any
+
+
+_SHARED_FIELDS = (
+    "frequency",
+    "primary_voltages",
+    "primary_arrangement",
+    "winding_order",
+    "insulation_class",
+    "ambient_temperature",
+    "wire_system",
+    "enamel_grade",
+    "screen",
+)
+
+
+def _scalar(value):
+    return value.item() if isinstance(value, (np.ndarray, np.generic)) else value
+
+
+@dataclass(frozen=True)
+class TransformerDesign(_TransformerFigures):
+    __doc__ = (
+        "One transformer design: the fields of a population, as Python scalars, plus the build block it\n"
+        "came from (``build``, None when taken from a population).\n\n" + (_TransformerFigures.__doc__ or "")
+    )
+
+    build: Any = None
+
+
+@dataclass(frozen=True)
+class TransformerPopulation(_TransformerFigures):
+    __doc__ = (
+        "A population of transformer designs: every per-design field is a numpy array of shape (n,).\n\n"
+        + (_TransformerFigures.__doc__ or "")
+    )
+
+    @property
+    def size(self) -> int:
+        """Number of designs n."""
+        return int(np.asarray(self.stack).shape[0])
+
+    def __len__(self) -> int:
+        return self.size
+
+    def design(self, index: int, build=None) -> TransformerDesign:
+        """Design ``index`` of the population as a :class:`TransformerDesign` of Python scalars."""
+        if not -self.size <= index < self.size:
+            raise IndexError(f"design index {index} out of range for a population of {self.size}")
+        values = {}
+        for f in dataclasses.fields(_TransformerFigures):
+            value = getattr(self, f.name)
+            if f.name in _SHARED_FIELDS:
+                values[f.name] = value
+            elif f.name == "windings":
+                values[f.name] = tuple(_take_winding(w, index) for w in value)
+            elif f.name == "primary_tap_turns":
+                values[f.name] = tuple(float(t) for t in value[:, index])
+            else:
+                values[f.name] = _scalar(value[index])
+        return TransformerDesign(**values, build=build)
+
+
+def _take_winding(winding: WindingPopulation, index: int) -> WindingDesign:
+    values = {}
+    for f in dataclasses.fields(_WindingFigures):
+        value = getattr(winding, f.name)
+        values[f.name] = value if f.name in ("name", "role") else _scalar(value[index])
+    return WindingDesign(**values)
+
+
+# --------------------------------------------------------------------------------------------
+# Population design
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class _Setup:
+    """Per-population constants prepared once before the fixed-point passes."""
+
+    n: int
+    data: TransformerData
+    frequency: float
+    taps: np.ndarray  # (T,) ascending [V]
+    dual: bool
+    a: np.ndarray
+    stack: np.ndarray
+    b_target: np.ndarray
+    core: np.ndarray
+    steel: np.ndarray
+    core_area: np.ndarray
+    winding_width: np.ndarray
+    available_build: np.ndarray
+    former_width: np.ndarray
+    former_depth: np.ndarray
+    former_offset: float  # tongue clearance + tube wall: tube surface to tongue face [m]
+    names: tuple
+    roles: tuple
+    v_target: np.ndarray  # (S, n) secondaries [V]
+    i_rated: np.ndarray  # (S, n) [A]
+    paths: np.ndarray  # (S, n)
+    centre_tapped: np.ndarray  # (W, n) bool, primary row False
+    order: tuple  # winding rows from the tube outward, -1 = screen
+    wire: WireTable
+    enamel_grade: int
+    ambient: float
+    rise_limit: float
+    interwinding: float
+    outer_wrap: float
+    screen_thickness: float
+    sizing: np.ndarray  # current density [A/m^2] or target HV series resistance [ohm]
+
+
+def _as_population(name: str, value) -> np.ndarray:
+    array = np.atleast_1d(np.asarray(value, dtype=float))
+    if array.ndim != 1:
+        raise ValueError(f"{name} must be a scalar or a 1-D array, got shape {array.shape}")
+    if not np.all(np.isfinite(array)):
+        raise ValueError(f"{name} must be finite, got {value!r}")
+    return array
+
+
+def _check_positive(name: str, array: np.ndarray, allow_zero: bool = False) -> None:
+    bad = array < 0 if allow_zero else array <= 0
+    if np.any(bad):
+        relation = ">= 0" if allow_zero else "> 0"
+        raise ValueError(f"{name} must be {relation}, got {array[bad][0]!r}")
+
+
+def _default_order(screen: bool, has_bias: bool, heater_names: Sequence[str]) -> tuple:
+    order = ["primary"] + (["screen"] if screen else []) + ["hv"] + (["bias"] if has_bias else [])
+    return tuple(order + list(heater_names))
+
+
+def _check_order(order: Sequence[str], expected: Sequence[str]) -> None:
+    if sorted(order) != sorted(expected):
+        raise ValueError(
+            f"winding_order must list each of {', '.join(expected)} exactly once, got {', '.join(order)}"
+        )
+
+
+def _check_shared(
+    frequency, primary_voltages, primary_arrangement, wire_system, enamel_grade, ambient_temperature, screen
+):
+    """Validate the inputs shared by the whole population; return the sorted mains voltages."""
+    if not (isinstance(frequency, (int, float)) and math.isfinite(frequency) and frequency > 0):
+        raise ValueError(f"frequency must be a positive number of hertz, got {frequency!r}")
+    if primary_arrangement not in _ARRANGEMENTS:
+        raise ValueError(f"primary_arrangement must be one of {', '.join(_ARRANGEMENTS)}, got {primary_arrangement!r}")
+    taps = np.sort(np.asarray(list(primary_voltages), dtype=float))
+    if taps.size == 0 or not np.all(np.isfinite(taps)) or np.any(taps <= 0) or np.unique(taps).size != taps.size:
+        raise ValueError(f"primary_voltages must be distinct positive voltages, got {primary_voltages!r}")
+    if primary_arrangement == "dual" and (taps.size != 2 or abs(taps[1] / taps[0] - 2.0) > 0.02):
+        raise ValueError(f"a dual primary needs two voltages V and 2V (series/parallel), got {primary_voltages!r}")
+    if wire_system not in _WIRE_SYSTEMS:
+        raise ValueError(f"wire_system must be one of {', '.join(_WIRE_SYSTEMS)}, got {wire_system!r}")
+    if enamel_grade not in (1, 2):
+        raise ValueError(f"enamel_grade must be 1 or 2, got {enamel_grade!r}")
+    if not (isinstance(ambient_temperature, (int, float)) and math.isfinite(ambient_temperature)):
+        raise ValueError(f"ambient_temperature must be a number of degC, got {ambient_temperature!r}")
+    if not isinstance(screen, bool):
+        raise ValueError(f"screen must be True or False, got {screen!r}")
+    return taps
+
+
+def _population_arrays(data: TransformerData, columns: dict, aux: Sequence[AuxiliaryWinding], sizing_name: str) -> dict:
+    """Broadcast every per-design input to one length n and check its values."""
+    arrays = {name: _as_population(name, value) for name, value in columns.items()}
+    try:
+        shape = np.broadcast_shapes(*(a.shape for a in arrays.values()))
+    except ValueError:
+        sizes = {name: a.shape[0] for name, a in arrays.items() if a.shape[0] != 1}
+        raise ValueError(f"population inputs must have one common length (or 1), got {sizes}") from None
+    arrays = {name: np.broadcast_to(a, shape).copy() for name, a in arrays.items()}
+    for name, limit in (("core_index", len(data.cores)), ("steel_index", len(data.steels))):
+        values = arrays[name]
+        bad = (values != np.rint(values)) | (values < 0) | (values >= limit)
+        if np.any(bad):
+            raise ValueError(f"{name} must be whole numbers 0..{limit - 1}, got {values[bad][0]!r}")
+    for name in ("stack", "max_flux_density", "hv_voltage", sizing_name) + tuple(f"{w.name}.voltage" for w in aux):
+        _check_positive(name, arrays[name])
+    for name in ("hv_rms_current",) + tuple(f"{w.name}.rms_current" for w in aux):
+        _check_positive(name, arrays[name], allow_zero=True)
+    if np.any((arrays["hv_centre_tapped"] != 0) & (arrays["hv_centre_tapped"] != 1)):
+        raise ValueError("hv_centre_tapped must be True/False (or 1/0)")
+    return arrays
+
+
+def _winding_layout(heaters, bias, screen, winding_order):
+    """Names and roles of the windings (primary, hv, heaters, bias) and their order on the bobbin."""
+    heater_names = [h.name for h in heaters]
+    if len(set(heater_names)) != len(heater_names) or any(h in _RESERVED_NAMES or not h for h in heater_names):
+        raise ValueError(f"heater names must be unique, non-empty and not one of {_RESERVED_NAMES}, got {heater_names}")
+    bias_winding = (AuxiliaryWinding("bias", bias.voltage, bias.rms_current, bias.centre_tapped),) if bias else ()
+    aux = tuple(heaters) + bias_winding
+    names = ("primary", "hv") + tuple(w.name for w in aux)
+    roles = ("primary", "hv") + ("heater",) * len(heaters) + (("bias",) if bias else ())
+    expected = _default_order(screen, bias is not None, heater_names)
+    order_names = tuple(winding_order) if winding_order is not None else expected
+    _check_order(order_names, expected)
+    order = tuple(-1 if name == "screen" else names.index(name) for name in order_names)
+    return aux, names, roles, order
+
+
+def _prepare(data: TransformerData, columns: dict, *, heaters, bias, screen, winding_order, frequency,
+             primary_voltages, primary_arrangement, insulation_class, ambient_temperature, wire_system,
+             enamel_grade, sizing_name) -> _Setup:
+    """Check the inputs and work out everything that stays fixed during the fixed-point passes."""
+    taps = _check_shared(
+        frequency, primary_voltages, primary_arrangement, wire_system, enamel_grade, ambient_temperature, screen
+    )
+    class_temperature = data.class_temperature(insulation_class)
+    aux, names, roles, order = _winding_layout(tuple(heaters), bias, screen, winding_order)
+    columns = dict(columns)
+    for w in aux:
+        columns[f"{w.name}.voltage"] = w.voltage
+        columns[f"{w.name}.rms_current"] = w.rms_current
+    arrays = _population_arrays(data, columns, aux, sizing_name)
+    n = arrays["stack"].shape[0]
+    hv_ct = arrays["hv_centre_tapped"]
+    core = arrays["core_index"].astype(int)
+    steel = arrays["steel_index"].astype(int)
+    a = data.tongue_widths[core]
+    sf = np.array([s.stacking_factor for s in data.steels])[steel]
+    bobbin, practice = data.bobbin, data.wire.winding_practice
+    offset = bobbin.tongue_clearance + bobbin.wall_thickness
+    window_width, window_height = ei_window(a)
+    return _Setup(
+        n=n,
+        data=data,
+        frequency=float(frequency),
+        taps=taps,
+        dual=primary_arrangement == "dual",
+        a=a,
+        stack=arrays["stack"],
+        b_target=arrays["max_flux_density"],
+        core=core,
+        steel=steel,
+        core_area=ei_core_area(a, arrays["stack"], sf),
+        winding_width=window_height - 2.0 * bobbin.wall_thickness - 2.0 * practice.end_margin,
+        available_build=window_width - offset - bobbin.outer_clearance,
+        former_width=a + 2.0 * offset,
+        former_depth=arrays["stack"] + 2.0 * offset,
+        former_offset=offset,
+        names=names,
+        roles=roles,
+        v_target=np.vstack([arrays["hv_voltage"]] + [arrays[f"{w.name}.voltage"] for w in aux]),
+        i_rated=np.vstack([arrays["hv_rms_current"]] + [arrays[f"{w.name}.rms_current"] for w in aux]),
+        paths=np.vstack([1.0 + hv_ct] + [np.ones(n)] * len(aux)),
+        centre_tapped=np.vstack(
+            [np.zeros(n, bool), hv_ct.astype(bool)] + [np.full(n, bool(w.centre_tapped)) for w in aux]
+        ),
+        order=order,
+        wire=data.wire_tables[wire_system],
+        enamel_grade=enamel_grade,
+        ambient=float(ambient_temperature),
+        rise_limit=class_temperature - float(ambient_temperature) - practice.hot_spot_allowance,
+        interwinding=data.material(practice.interwinding.material).thickness * practice.interwinding.layers,
+        outer_wrap=data.material(practice.outer_wrap.material).thickness * practice.outer_wrap.layers,
+        screen_thickness=data.material(practice.screen.material).thickness * practice.screen.layers,
+        sizing=arrays[sizing_name],
+    )
+
+
+def _snap_up(table: WireTable, current, current_density):
+    required = np.sqrt(4.0 * np.asarray(current, dtype=float) / (np.pi * np.asarray(current_density)))
+    index = np.searchsorted(table.diameters, required, side="left")
+    available = index < table.diameters.size
+    index = np.minimum(index, table.diameters.size - 1)
+    return index, table.diameters[index], available
+
+
+def _choose_wire(setup: _Setup, current, current_density):
+    """Smallest offered wire whose area carries ``current`` at ``current_density`` (snapped up)."""
+    return _snap_up(setup.wire, current, current_density)
+
+
+def wire_size_for_current(rms_current, current_density, wire_system="metric", data=None):
+    """Smallest real wire size whose bare area carries a current at a current density.
+
+    Parameters
+    ----------
+    rms_current : numeric
+        RMS current. [A]
+    current_density : numeric
+        Allowed RMS current density. [A/m^2]
+    wire_system : {"metric", "awg", "both"}
+        IEC 60317 nominal diameters, ASTM B258 gauges, or both.
+    data : TransformerData, optional
+
+    Returns
+    -------
+    tuple
+        (bare diameter [m], label array, available bool array); when no offered size is large
+        enough the largest is returned with available False.
+
+    References
+    ----------
+    .. [1] ASTM B258 (AWG diameters); IEC 60317-0-1 (nominal diameters of enamelled round wire).
+    """
+    data = data if data is not None else load_transformer_data()
+    if wire_system not in _WIRE_SYSTEMS:
+        raise ValueError(f"wire_system must be one of {', '.join(_WIRE_SYSTEMS)}, got {wire_system!r}")
+    table = data.wire_tables[wire_system]
+    index, diameter, available = _snap_up(table, rms_current, current_density)
+    return diameter, np.array(table.labels)[index], available
+
+
+def _enamel_increase(setup: _Setup, diameter):
+    points = setup.data.wire.enamel_build.points
+    nominal = np.array([p.nominal_diameter for p in points])
+    increase = np.array([p.grade_1 if setup.enamel_grade == 1 else p.grade_2 for p in points])
+    return np.interp(diameter, nominal, increase)
+
+
+def _interlayer(setup: _Setup, diameter):
+    rules = setup.data.wire.winding_practice.interlayer
+    limits = np.array([r.up_to_diameter for r in rules])
+    thickness = np.array([setup.data.material(r.material).thickness for r in rules])
+    return thickness[np.minimum(np.searchsorted(limits, diameter, side="left"), limits.size - 1)]
+
+
+def _layering(setup: _Setup, turns, overall_diameter, interlayer):
+    """Turns per layer, layers and radial build (with bulge) of layer-wound windings."""
+    practice = setup.data.wire.winding_practice
+    per_layer = np.floor(setup.winding_width / (overall_diameter * practice.lay_factor))
+    traverse_ok = per_layer >= 1.0
+    per_layer = np.maximum(per_layer, 1.0)
+    layers = np.maximum(np.ceil(turns / per_layer - 1e-9), 1.0)
+    build = (layers * overall_diameter + (layers - 1.0) * interlayer) * practice.bulge_factor
+    return per_layer, layers, build, traverse_ok
+
+
+def _positions(setup: _Setup, builds):
+    """Distance of each winding's start from the tube, and the total build, following the order."""
+    start = np.zeros_like(builds)
+    cursor = np.zeros(setup.n)
+    for k, row in enumerate(setup.order):
+        if k > 0:
+            cursor = cursor + setup.interwinding
+        if row < 0:
+            cursor = cursor + setup.screen_thickness
+        else:
+            start[row] = cursor
+            cursor = cursor + builds[row]
+    return start, cursor + setup.outer_wrap
+
+
+def _iron(setup: _Setup, primary_turns):
+    """Flux density with integer turns, core loss, magnetising and core-loss currents."""
+    data = setup.data
+    v_low = setup.taps[0]
+    b = v_low / (_EMF_FACTOR * setup.frequency * primary_turns * setup.core_area)
+    sf = np.array([s.stacking_factor for s in data.steels])[setup.steel]
+    density = np.array([s.density_kg_per_m3 for s in data.steels])[setup.steel]
+    steel_mass = density * ei_steel_volume(setup.a, setup.stack, sf)
+    k, alpha, beta = (data.steinmetz[setup.steel, j] for j in range(3))
+    specific_loss = steinmetz_loss(setup.frequency, b, k, alpha, beta)
+    core_loss = steel_mass * specific_loss * data.lamination.core_loss_building_factor
+    field = np.zeros(setup.n)
+    for s, steel in enumerate(data.steels):
+        field = np.where(setup.steel == s, magnetising_field(b, steel.magnetisation), field)
+    ampere_turns = field * ei_magnetic_path_length(setup.a) + b * data.lamination.joint_equivalent_gap / _MU_0
+    magnetising = ampere_turns / (math.sqrt(2.0) * primary_turns)
+    return b, steel_mass, core_loss, magnetising, core_loss / v_low
+
+
+def _pass(setup: _Setup, iron, n_eq, n_primary, ratio, temperature, current_density):
+    """One evaluation of every winding figure for given turns ratios and winding temperature."""
+    b, steel_mass, core_loss, i_mag, i_core = iron
+    v_low = setup.taps[0]
+    parallel = 2.0 if setup.dual else 1.0
+    i_sec = setup.i_rated
+    reflect = np.where(setup.paths > 1.5, math.sqrt(2.0), 1.0)
+    in_phase = np.sum(ratio * i_sec * reflect, axis=0) + i_core
+    i_primary = np.sqrt(in_phase**2 + i_mag**2)
+
+    turns_path = np.vstack([n_eq, ratio * n_eq])
+    turns = np.vstack([n_primary, setup.paths * ratio * n_eq])
+    wire_current = np.vstack([i_primary / parallel, i_sec])
+    index, diameter, available = _choose_wire(setup, wire_current, current_density)
+    overall = diameter + _enamel_increase(setup, diameter)
+    interlayer = _interlayer(setup, diameter)
+    per_layer, layers, builds, traverse_ok = _layering(setup, turns, overall, interlayer)
+    start, total_build = _positions(setup, builds)
+    mlt = mean_turn_length(setup.former_width, setup.former_depth, start, builds)
+    length = turns * mlt
+    r_end_20 = length * resistance_per_length(diameter, 20.0)
+    hot = 1.0 + COPPER_TEMPERATURE_COEFFICIENT_20C * (temperature - 20.0)
+    # Per conducting path: primary as connected for the lowest voltage; HV half if centre-tapped.
+    primary_share = (n_eq / n_primary) / parallel
+    r_path_20 = np.vstack([r_end_20[0] * primary_share, r_end_20[1:] / setup.paths])
+    r_path = r_path_20 * hot
+
+    e_primary = v_low - r_path[0] * (np.sum(ratio * i_sec, axis=0) + i_core)
+    copper_loss_each = np.vstack([i_primary**2 * r_path[0], setup.paths * i_sec**2 * r_path[1:]])
+    copper_loss = np.sum(copper_loss_each, axis=0)
+    surface = ei_outline_surface_area(setup.a, setup.stack, setup.former_offset + total_build)
+    rise = mclyman_temperature_rise(copper_loss + core_loss, surface)
+    return {
+        "i_primary": i_primary,
+        "turns": turns,
+        "turns_path": turns_path,
+        "wire_index": index,
+        "diameter": diameter,
+        "overall": overall,
+        "available": np.all(available, axis=0),
+        "interlayer": interlayer,
+        "per_layer": per_layer,
+        "layers": layers,
+        "builds": builds,
+        "start": start,
+        "total_build": total_build,
+        "traverse_ok": np.all(traverse_ok, axis=0),
+        "mlt": mlt,
+        "length": length,
+        "r_end_20": r_end_20 / np.vstack([np.full(setup.n, parallel), np.ones_like(r_end_20[1:])]),
+        "r_path_20": r_path_20,
+        "r_path": r_path,
+        "e_primary": e_primary,
+        "copper_loss_each": copper_loss_each,
+        "copper_loss": copper_loss,
+        "surface": surface,
+        "rise": rise,
+        "wire_current": wire_current,
+    }
+
+
+def _regulated_ratios(setup: _Setup, state, iron):
+    """Secondary turns ratios that give the rated loaded voltages, for the resistances of ``state``.
+
+    With u_k = V_k + I_k R_k and E = V_1 - R_1 (sum n_k I_k + I_c), n_k = u_k / E gives
+    E^2 - (V_1 - R_1 I_c) E + R_1 sum u_k I_k = 0, whose larger root is taken.
+    """
+    i_core = iron[4]
+    r_primary = state["r_path"][0]
+    u = setup.v_target + setup.i_rated * state["r_path"][1:]
+    v_prime = setup.taps[0] - r_primary * i_core
+    discriminant = v_prime**2 - 4.0 * r_primary * np.sum(u * setup.i_rated, axis=0)
+    solvable = (discriminant > 0.0) & (v_prime > 0.0)
+    # Without a real root the drops exceed what any turns ratio can make up; E then sits at the
+    # maximum-power point V'/2 and the ratios are capped at twice the ideal (100 % compensation),
+    # which keeps the figures of an infeasible design finite.
+    e = np.maximum(0.5 * (v_prime + np.sqrt(np.maximum(discriminant, 0.0))), 0.5 * np.abs(v_prime))
+    e = np.maximum(e, 1e-3 * setup.taps[0])
+    ceiling = 2.0 * setup.v_target / setup.taps[0]
+    ratio = np.minimum(u / e, ceiling)
+    return ratio, solvable & np.all(ratio < ceiling, axis=0)
+
+
+def _winding_temperature(setup: _Setup, state):
+    # Copper melts at 1085 degC; capping the temperature used for hot resistance keeps the figures of
+    # a hopeless design finite (its reported rise stays uncapped and fails the class limit).
+    return np.minimum(setup.ambient + state["rise"], _TEMPERATURE_CAP)
+
+
+def _solve(setup: _Setup, current_density):
+    """Fixed point of turns, wire, geometry, resistance and temperature; then integer turns."""
+    ideal = turns_for_voltage(setup.taps[:, None], setup.frequency, setup.b_target, setup.core_area)
+    tap_turns = np.maximum(np.rint(ideal), 1.0)
+    n_eq = tap_turns[0]
+    n_primary = 2.0 * n_eq if setup.dual else tap_turns[-1]
+    iron = _iron(setup, n_eq)
+    ratio = setup.v_target / setup.taps[0]
+    temperature = np.full(setup.n, setup.ambient)
+    for _ in range(_FIXED_POINT_PASSES):
+        state = _pass(setup, iron, n_eq, n_primary, ratio, temperature, current_density)
+        ratio, solvable = _regulated_ratios(setup, state, iron)
+        temperature = _winding_temperature(setup, state)
+    ratio = np.maximum(np.rint(ratio * n_eq), 1.0) / n_eq
+    previous = temperature
+    for _ in range(_FINAL_PASSES):
+        state = _pass(setup, iron, n_eq, n_primary, ratio, temperature, current_density)
+        previous, temperature = temperature, _winding_temperature(setup, state)
+    state = _pass(setup, iron, n_eq, n_primary, ratio, temperature, current_density)
+    state.update(
+        ratio=ratio,
+        tap_turns=tap_turns,
+        iron=iron,
+        temperature=temperature,
+        solvable=solvable,
+        converged=np.abs(temperature - previous) < 0.05,
+    )
+    return state
+
+
+def _hv_leakage(setup: _Setup, state):
+    """Primary-to-HV leakage per HV conducting path; sequential halves when centre-tapped."""
+    builds, start = state["builds"], state["start"]
+    inner_first = start[0] < start[1]
+    inner, outer = np.where(inner_first, 0, 1), np.where(inner_first, 1, 0)
+    columns = np.arange(setup.n)
+    inner_start, inner_build = start[inner, columns], builds[inner, columns]
+    outer_start, outer_build = start[outer, columns], builds[outer, columns]
+    gap = outer_start - (inner_start + inner_build)
+    span = outer_start + outer_build - inner_start
+    mlt = mean_turn_length(setup.former_width, setup.former_depth, inner_start, span)
+    n_path = state["turns_path"][1]
+    whole = leakage_inductance_layered(n_path, mlt, setup.winding_width, gap, builds[0], builds[1])
+    half = 0.5 * builds[1]
+    near = leakage_inductance_layered(n_path, mlt, setup.winding_width, gap, builds[0], half)
+    far = leakage_inductance_layered(n_path, mlt, setup.winding_width, gap + half, builds[0], half)
+    return np.where(setup.paths[0] > 1.5, 0.5 * (near + far), whole)
+
+
+def _cost(setup: _Setup, copper_mass, steel_mass):
+    prices = setup.data.prices
+    windings = (2 if setup.dual else 1) + len(setup.names) - 1
+    centre_taps = np.sum(setup.centre_tapped, axis=0)
+    screen = any(row < 0 for row in setup.order)
+    return (
+        prices.base_cost
+        + prices.copper_per_kg * copper_mass
+        + prices.steel_per_kg * steel_mass
+        + prices.labour_per_winding * windings
+        + (prices.extras.screen if screen else 0.0)
+        + prices.extras.tapped_primary * (setup.taps.size - 1)
+        + prices.extras.centre_tap * centre_taps
+    )
+
+
+def _windings(setup: _Setup, state) -> tuple:
+    ratio = state["ratio"]
+    n_windings = len(setup.names)
+    e = state["e_primary"]
+    v_low = setup.taps[0]
+    loaded = np.vstack([np.full(setup.n, v_low), ratio * e - setup.i_rated * state["r_path"][1:]])
+    i_core = state["iron"][4]
+    no_load = np.vstack([np.full(setup.n, v_low), ratio * (v_low - state["r_path"][0] * i_core)])
+    rated = np.vstack([np.full(setup.n, v_low), setup.v_target])
+    current = np.vstack([state["i_primary"], setup.i_rated])
+    paths = np.vstack([np.ones(setup.n), setup.paths])
+    area = 0.25 * np.pi * state["diameter"] ** 2
+    labels = np.array(setup.wire.labels)[state["wire_index"]]
+    result = []
+    for w in range(n_windings):
+        result.append(
+            WindingPopulation(
+                name=setup.names[w],
+                role=setup.roles[w],
+                centre_tapped=setup.centre_tapped[w].copy(),
+                conducting_paths=paths[w].astype(int),
+                rated_voltage=rated[w],
+                loaded_voltage=loaded[w],
+                no_load_voltage=no_load[w],
+                rms_current=current[w],
+                turns=state["turns"][w],
+                turns_per_path=state["turns_path"][w],
+                wire_label=labels[w],
+                wire_diameter=state["diameter"][w],
+                wire_overall_diameter=state["overall"][w],
+                current_density=state["wire_current"][w] / area[w],
+                turns_per_layer=state["per_layer"][w],
+                layers=state["layers"][w],
+                interlayer_thickness=state["interlayer"][w],
+                build=state["builds"][w],
+                distance_from_former=state["start"][w],
+                mean_turn_length=state["mlt"][w],
+                wire_length=state["length"][w],
+                resistance_20=state["r_path_20"][w],
+                resistance_hot=state["r_path"][w],
+                end_to_end_resistance_20=state["r_end_20"][w],
+                copper_loss=state["copper_loss_each"][w],
+                copper_mass=state["length"][w] * area[w] * COPPER_DENSITY,
+            )
+        )
+    return tuple(result)
+
+
+def _assemble(setup: _Setup, state, current_density, target_met, settings) -> TransformerPopulation:
+    data = setup.data
+    b, steel_mass, core_loss, i_mag, i_core = state["iron"]
+    windings = _windings(setup, state)
+    hv = windings[1]
+    ratio_hv = state["ratio"][0]
+    r_primary, r_primary_20 = state["r_path"][0], state["r_path_20"][0]
+    others = np.sum(state["ratio"][1:] * setup.i_rated[1:], axis=0) + i_core
+    hv_open = ratio_hv * (setup.taps[0] - r_primary * others)
+    r_s = hv.resistance_hot + ratio_hv**2 * r_primary
+    hv_loaded = hv_open - hv.rms_current * r_s
+    positive = hv_loaded > 0.0
+    loaded_error = np.vstack([w.loaded_voltage / w.rated_voltage - 1.0 for w in windings[1:]])
+    window_width, window_height = ei_window(setup.a)
+    copper_mass = sum(w.copper_mass for w in windings)
+    secondary_va = sum(w.rated_voltage * w.rms_current * w.conducting_paths for w in windings[1:])
+    copper_area = np.sum(state["turns"] * 0.25 * np.pi * state["diameter"] ** 2, axis=0)
+    low, high = data.lamination.stack_ratio_range
+    ratio_stack = setup.stack / setup.a
+    fits = (state["total_build"] <= setup.available_build) & state["traverse_ok"]
+    flux_limit = np.array([s.max_flux_density for s in data.steels])[setup.steel]
+    flags = {
+        "fits_window": fits,
+        "wire_available": state["available"],
+        "flux_ok": b <= flux_limit * (1.0 + 1e-9),
+        "temperature_ok": state["rise"] <= setup.rise_limit,
+        "stack_in_range": (ratio_stack >= low * (1 - 1e-9)) & (ratio_stack <= high * (1 + 1e-9)),
+        "regulation_solvable": state["solvable"],
+        "resistance_target_met": target_met,
+        "converged": state["converged"],
+    }
+    feasible = np.logical_and.reduce(list(flags.values()))
+    return TransformerPopulation(
+        **settings,
+        core_index=setup.core,
+        core_name=np.array([c.name for c in data.cores])[setup.core],
+        tongue_width=setup.a,
+        stack=setup.stack,
+        steel_index=setup.steel,
+        steel_name=np.array([s.name for s in data.steels])[setup.steel],
+        core_area=setup.core_area,
+        window_area=window_width * window_height,
+        magnetic_path_length=ei_magnetic_path_length(setup.a),
+        winding_width=setup.winding_width,
+        available_build=setup.available_build,
+        total_build=state["total_build"],
+        build_ratio=state["total_build"] / setup.available_build,
+        fill_factor=copper_area / (window_width * window_height),
+        flux_density=b,
+        flux_density_limit=flux_limit,
+        primary_tap_turns=state["tap_turns"],
+        windings=windings,
+        primary_rms_current=state["i_primary"],
+        magnetising_current=i_mag,
+        core_loss_current=i_core,
+        no_load_current=np.hypot(i_mag, i_core),
+        copper_loss=state["copper_loss"],
+        core_loss=core_loss,
+        total_loss=state["copper_loss"] + core_loss,
+        surface_area=state["surface"],
+        temperature_rise=state["rise"],
+        temperature_rise_limit=np.full(setup.n, setup.rise_limit),
+        winding_temperature=setup.ambient + state["rise"],
+        secondary_va=secondary_va,
+        primary_va=setup.taps[0] * state["i_primary"],
+        area_product=ei_area_product(setup.a, setup.stack, setup.core_area / (setup.a * setup.stack)),
+        copper_mass=copper_mass,
+        steel_mass=steel_mass,
+        mass=copper_mass + steel_mass,
+        cost=_cost(setup, copper_mass, steel_mass),
+        hv_open_circuit_voltage=hv_open,
+        hv_series_resistance=r_s,
+        hv_series_resistance_20=hv.resistance_20 + ratio_hv**2 * r_primary_20,
+        hv_leakage_inductance=_hv_leakage(setup, state),
+        hv_loaded_voltage=hv_loaded,
+        hv_regulation=np.where(positive, (hv_open - hv_loaded) / np.where(positive, hv_loaded, 1.0), np.inf),
+        max_voltage_error=np.max(np.abs(loaded_error), axis=0),
+        current_density_used=current_density,
+        **flags,
+        feasible=feasible,
+    )
+
+
+def _series_resistance(state):
+    return state["r_path"][1] + state["ratio"][0] ** 2 * state["r_path"][0]
+
+
+def _current_density_for_target(setup: _Setup, target):
+    """Largest current density (thinnest wire, cheapest) whose HV R_s (hot) is at most ``target``,
+    by bisection in log J over the practice's range; R_s grows with J, in steps of wire size."""
+    low_j, high_j = setup.data.wire.winding_practice.current_density_range
+    low, high = np.full(setup.n, low_j), np.full(setup.n, high_j)
+    high_ok = _series_resistance(_solve(setup, high)) <= target
+    for _ in range(_TARGET_BISECTIONS):
+        middle = np.sqrt(low * high)
+        ok = _series_resistance(_solve(setup, middle)) <= target
+        low, high = np.where(ok, middle, low), np.where(ok, high, middle)
+    return np.where(high_ok, high_j, low)
+
+
+def design_population(
+    *,
+    core_index,
+    stack,
+    max_flux_density,
+    hv_voltage,
+    hv_rms_current,
+    frequency: float,
+    primary_voltages: Sequence[float],
+    insulation_class: str,
+    ambient_temperature: float,
+    hv_centre_tapped=False,
+    current_density=None,
+    target_resistance=None,
+    heaters: Sequence[AuxiliaryWinding] = (),
+    bias: AuxiliaryWinding | None = None,
+    screen: bool = False,
+    winding_order: Sequence[str] | None = None,
+    steel_index=0,
+    primary_arrangement: str = "taps",
+    wire_system: str = "metric",
+    enamel_grade: int = 2,
+    data: TransformerData | None = None,
+) -> TransformerPopulation:
+    """Design a whole population of mains transformers in one vectorised call.
+
+    Per-design inputs are scalars or 1-D arrays of one common length n (scalars broadcast).
+
+    Parameters
+    ----------
+    core_index : array_like of int
+        Index into the cores of ``cores.yaml`` (see :meth:`TransformerData.core_index`). [-]
+    stack : array_like
+        Stack height. [m]
+    max_flux_density : array_like
+        Design peak flux density at the lowest mains voltage. [T]
+    hv_voltage : array_like
+        HV RMS voltage at rated load per conducting path (each half when centre-tapped). [V]
+    hv_rms_current : array_like
+        HV RMS current per conducting path (from the rectifier waveform, not the DC current). [A]
+    frequency : float
+        Mains frequency. [Hz]
+    primary_voltages : sequence of float
+        Mains voltages: one, several taps, or [V, 2V] for a dual primary. [V]
+    insulation_class : str
+        IEC 60085 letter: A, E, B, F or H.
+    ambient_temperature : float
+        Ambient the temperature rise is checked at. [degC]
+    hv_centre_tapped : array_like of bool
+        True for a centre-tapped full-wave HV winding.
+    current_density, target_resistance : array_like
+        Exactly one: the RMS current density every winding's wire is chosen for [A/m^2], or the HV
+        series resistance per path R_s (hot) to meet with the largest current density that does
+        [ohm].
+    heaters : sequence of AuxiliaryWinding
+        Heater windings (voltage end to end).
+    bias : AuxiliaryWinding, optional
+        Bias supply winding (its name is taken as ``"bias"``).
+    screen : bool
+        Fit an electrostatic screen.
+    winding_order : sequence of str, optional
+        From the tube outward, naming ``primary``, ``hv``, ``bias``, ``screen`` and each heater once;
+        default primary, screen, hv, bias, heaters.
+    steel_index : array_like of int
+        Index into the steels of ``steels.yaml``. [-]
+    primary_arrangement : {"taps", "dual"}
+    wire_system : {"metric", "awg", "both"}
+        Wire sizes offered (IEC 60317 metric, ASTM B258 AWG, or both).
+    enamel_grade : {1, 2}
+        IEC 60317 enamel grade, for the overall diameter.
+    data : TransformerData, optional
+        Parts data; the packaged data files when omitted.
+
+    Returns
+    -------
+    TransformerPopulation
+        Every figure as an array over the population, with feasibility flags.
+
+    Raises
+    ------
+    ValueError
+        For malformed input only (wrong shapes, non-positive values, unknown names). Designs that
+        do not fit, overheat or cannot meet their voltages are flagged, not raised.
+
+    References
+    ----------
+    .. [1] C. W. T. McLyman, Transformer and Inductor Design Handbook, 4th ed., CRC Press 2011.
+    .. [2] IEC 60028 (copper), ASTM B258 (AWG), IEC 60317-0-1 (enamelled wire), IEC 60085 (classes).
+    """
+    data = data if data is not None else load_transformer_data()
+    if (current_density is None) == (target_resistance is None):
+        raise ValueError("give exactly one of current_density or target_resistance")
+    by_density = current_density is not None
+    sizing_name = "current_density" if by_density else "target_resistance"
+    columns = {
+        "core_index": core_index,
+        "stack": stack,
+        "max_flux_density": max_flux_density,
+        "hv_voltage": hv_voltage,
+        "hv_rms_current": hv_rms_current,
+        "hv_centre_tapped": hv_centre_tapped,
+        "steel_index": steel_index,
+        sizing_name: current_density if by_density else target_resistance,
+    }
+    setup = _prepare(
+        data,
+        columns,
+        heaters=heaters,
+        bias=bias,
+        screen=screen,
+        winding_order=winding_order,
+        frequency=frequency,
+        primary_voltages=primary_voltages,
+        primary_arrangement=primary_arrangement,
+        insulation_class=insulation_class,
+        ambient_temperature=ambient_temperature,
+        wire_system=wire_system,
+        enamel_grade=enamel_grade,
+        sizing_name=sizing_name,
+    )
+    if by_density:
+        j = setup.sizing
+        target_met = np.ones(setup.n, bool)
+        state = _solve(setup, j)
+    else:
+        j = _current_density_for_target(setup, setup.sizing)
+        state = _solve(setup, j)
+        target_met = _series_resistance(state) <= setup.sizing * (1.0 + 1e-9)
+    settings = {
+        "frequency": setup.frequency,
+        "primary_voltages": tuple(float(v) for v in setup.taps),
+        "primary_arrangement": primary_arrangement,
+        "winding_order": tuple("screen" if row < 0 else setup.names[row] for row in setup.order),
+        "insulation_class": insulation_class,
+        "ambient_temperature": setup.ambient,
+        "wire_system": wire_system,
+        "enamel_grade": enamel_grade,
+        "screen": screen,
+    }
+    return _assemble(setup, state, j, target_met, settings)
+
+
+# --------------------------------------------------------------------------------------------
+# Design-file block
+# --------------------------------------------------------------------------------------------
+
+_WindingName = Field(pattern=r"^[A-Za-z][A-Za-z0-9_.-]*$")
+
+
+class HvWindingBlock(Strict):
+    """HV secondary of a build.
+
+    ``voltage`` (RMS at rated load) and ``current`` (RMS rating) are per conducting path: for a
+    centre-tapped winding, each half ("300-0-300 V" is voltage "300 V").
+    """
+
+    voltage: _PositiveVoltage
+    current: _NonNegativeCurrent
+    centre_tapped: bool = False
+
+
+class HeaterWindingBlock(Strict):
+    """A heater winding: ``voltage`` end to end at rated load, ``current`` RMS; a centre tap is a tap."""
+
+    name: str = _WindingName
+    voltage: _PositiveVoltage
+    current: _NonNegativeCurrent
+    centre_tapped: bool = False
+
+
+class BiasWindingBlock(Strict):
+    """The bias supply winding: ``voltage`` end to end at rated load, ``current`` RMS."""
+
+    voltage: _PositiveVoltage
+    current: _NonNegativeCurrent
+    centre_tapped: bool = False
+
+
+def _context_data(info: ValidationInfo) -> TransformerData:
+    context = info.context or {}
+    data = context.get("transformer_data")
+    return data if isinstance(data, TransformerData) else load_transformer_data()
+
+
+class TransformerBuild(Strict):
+    """A physical transformer build, as written under ``transformer: build:`` in a design file.
+
+    The mains frequency is not part of the block: it comes from the design's mains. Core and steel
+    names are checked against the parts data (``context={"transformer_data": data}`` to validate
+    against other data files than the packaged ones).
+    """
+
+    primaries: list[_PositiveVoltage] = Field(min_length=1, max_length=8)
+    primary_arrangement: Literal["taps", "dual"] = "taps"
+    core: str
+    stack: _PositiveLength
+    steel: str
+    max_flux_density: _PositiveFluxDensity
+    current_density: _PositiveCurrentDensity
+    insulation_class: Literal["A", "E", "B", "F", "H"]
+    ambient: _Temperature
+    hv: HvWindingBlock
+    heaters: list[HeaterWindingBlock] = Field(default_factory=list)
+    bias: BiasWindingBlock | None = None
+    screen: bool = False
+    winding_order: list[str] | None = None
+    wire: Literal["metric", "awg", "both"] = "metric"
+    enamel_grade: Literal[1, 2] = 2
+    mounting: str = ""
+
+    @field_validator("core")
+    @classmethod
+    def _known_core(cls, name: str, info: ValidationInfo) -> str:
+        _context_data(info).core_index(name)
+        return name
+
+    @field_validator("steel")
+    @classmethod
+    def _known_steel(cls, name: str, info: ValidationInfo) -> str:
+        _context_data(info).steel_index(name)
+        return name
+
+    @model_validator(mode="after")
+    def _consistent(self):
+        voltages = sorted(self.primaries)
+        if len(set(voltages)) != len(voltages):
+            raise ValueError(f"primaries must be distinct voltages, got {self.primaries}")
+        if self.primary_arrangement == "dual" and (len(voltages) != 2 or abs(voltages[1] / voltages[0] - 2) > 0.02):
+            raise ValueError("a dual primary needs two voltages V and 2V, e.g. ['115 V', '230 V']")
+        names = [h.name for h in self.heaters]
+        if len(set(names)) != len(names) or any(n in _RESERVED_NAMES for n in names):
+            raise ValueError(f"heater names must be unique and not one of {', '.join(_RESERVED_NAMES)}, got {names}")
+        if self.winding_order is not None:
+            _check_order(self.winding_order, _default_order(self.screen, self.bias is not None, names))
+        return self
+
+
+def build_from_block(
+    block: TransformerBuild, frequency: float, data: TransformerData | None = None
+) -> TransformerDesign:
+    """Design the transformer a build block describes (the population code path with n = 1).
+
+    Parameters
+    ----------
+    block : TransformerBuild
+        The validated ``transformer: build:`` block.
+    frequency : float
+        Mains frequency of the design. [Hz]
+    data : TransformerData, optional
+        Parts data; the packaged data files when omitted.
+
+    Returns
+    -------
+    TransformerDesign
+    """
+    data = data if data is not None else load_transformer_data()
+    heaters = [AuxiliaryWinding(h.name, h.voltage, h.current, h.centre_tapped) for h in block.heaters]
+    bias = None
+    if block.bias is not None:
+        bias = AuxiliaryWinding("bias", block.bias.voltage, block.bias.current, block.bias.centre_tapped)
+    population = design_population(
+        core_index=data.core_index(block.core),
+        stack=block.stack,
+        max_flux_density=block.max_flux_density,
+        hv_voltage=block.hv.voltage,
+        hv_rms_current=block.hv.current,
+        hv_centre_tapped=block.hv.centre_tapped,
+        frequency=frequency,
+        primary_voltages=block.primaries,
+        primary_arrangement=block.primary_arrangement,
+        insulation_class=block.insulation_class,
+        ambient_temperature=block.ambient,
+        current_density=block.current_density,
+        heaters=heaters,
+        bias=bias,
+        screen=block.screen,
+        winding_order=block.winding_order,
+        steel_index=data.steel_index(block.steel),
+        wire_system=block.wire,
+        enamel_grade=block.enamel_grade,
+        data=data,
+    )
+    return population.design(0, build=block)
+
+
+# --------------------------------------------------------------------------------------------
+# Order sheet
+# --------------------------------------------------------------------------------------------
+
+_CAUTIONS = (
+    "This sheet specifies a transformer for a qualified transformer winder. It is not an instruction "
+    "for mains wiring.",
+    "Mains wiring, protective earthing, fusing, creepage and clearance distances and the insulation "
+    "system are governed by the safety standards and wiring codes that apply where the equipment is "
+    "built and used; they take precedence over anything on this sheet.",
+    "The dielectric-strength (hi-pot) test and the insulation construction are set by the applicable "
+    "safety standard; this sheet states no test voltage.",
+    "The high-voltage secondary and the charged supply it feeds can kill. Only people competent to "
+    "work on high-voltage equipment should build, test or service it.",
+    "Voltages, resistances, temperature rise and weight are design estimates (resistive drops only, "
+    "temperature rise by a surface-dissipation rule, parts data partly from memory); confirm them on "
+    "the finished transformer.",
+)
+
+
+def _number(value: float) -> str:
+    return f"{value:.4g}"
+
+
+def _volts(value: float, centre_tapped: bool, halves: bool) -> str:
+    if halves:
+        return f"{_number(value)}-0-{_number(value)} V"
+    return format_quantity(value, "V", 4) + (", centre-tapped" if centre_tapped else "")
+
+
+def _primary_section(design: TransformerDesign) -> dict:
+    primary = design.windings[0]
+    voltages = design.primary_voltages
+    shown = " / ".join(format_quantity(v, "V", 4) for v in voltages)
+    if design.primary_arrangement == "dual":
+        arrangement = (
+            f"two identical {format_quantity(voltages[0], 'V', 4)} windings, in parallel for "
+            f"{format_quantity(voltages[0], 'V', 4)} and in series for {format_quantity(voltages[1], 'V', 4)}"
+        )
+        resistance = f"{format_quantity(primary.end_to_end_resistance_20, 'ohm')} each winding"
+    elif len(voltages) > 1:
+        arrangement = "one winding with taps at " + ", ".join(["0 V"] + [format_quantity(v, "V", 4) for v in voltages])
+        per_turn = primary.end_to_end_resistance_20 / primary.turns
+        resistance = "; ".join(
+            f"0 to {format_quantity(v, 'V', 4)}: {format_quantity(per_turn * t, 'ohm')}"
+            for v, t in zip(voltages, design.primary_tap_turns)
+        )
+    else:
+        arrangement = "single winding"
+        resistance = format_quantity(primary.end_to_end_resistance_20, "ohm")
+    return {
+        "voltages": shown,
+        "arrangement": arrangement,
+        "frequency": format_quantity(design.frequency, "Hz", 3),
+        "rms_current_at_rated_load": f"{format_quantity(primary.rms_current, 'A')} "
+        f"at {format_quantity(voltages[0], 'V', 4)}",
+        "no_load_current_estimate": format_quantity(design.no_load_current, "A"),
+        "maximum_dc_resistance_at_20C": resistance,
+        "lead_colours": "",
+        "terminal_markings": "",
+    }
+
+
+def _secondary_section(winding: WindingDesign, hv_open_circuit=None) -> dict:
+    halves = winding.conducting_paths == 2
+    per = " per half" if halves else ""
+    kind = {"hv": "high voltage (rectifier)", "bias": "bias supply", "heater": "heater"}[winding.role]
+    entry = {
+        "name": winding.name,
+        "purpose": kind,
+        "voltage_at_rated_load": _volts(winding.rated_voltage, winding.centre_tapped, halves),
+        "voltage_at_no_load": _volts(winding.no_load_voltage, winding.centre_tapped, halves) + " (design estimate)",
+        "rms_current_rating": format_quantity(winding.rms_current, "A") + per,
+        "centre_tap": bool(winding.centre_tapped),
+        "maximum_dc_resistance_at_20C": format_quantity(winding.resistance_20, "ohm")
+        + (" per half (average of the two halves)" if halves else ""),
+        "lead_colours": "",
+        "terminal_markings": "",
+    }
+    if hv_open_circuit is not None:
+        # what the rectifier sees: the HV winding open while the heaters carry their load
+        entry["voltage_open_circuit_heaters_loaded"] = (
+            _volts(hv_open_circuit, winding.centre_tapped, halves) + " (design estimate)")
+    return entry
+
+
+def _winding_reference(winding: WindingDesign) -> dict:
+    halves = winding.conducting_paths == 2
+    half_turns = round(winding.turns_per_path)
+    return {
+        "winding": winding.name,
+        "turns": f"{half_turns} + {half_turns}" if halves else str(round(winding.turns)),
+        "wire": f"{winding.wire_label} enamelled copper",
+        "turns_per_layer": str(int(winding.turns_per_layer)),
+        "layers": str(int(winding.layers)),
+        "interlayer": format_quantity(winding.interlayer_thickness, "m") if winding.layers > 1 else "none (one layer)",
+        "estimated_voltage_at_rated_load": _volts(winding.loaded_voltage, winding.centre_tapped, halves),
+        "mean_turn_length": format_quantity(winding.mean_turn_length, "m"),
+        "wire_length": format_quantity(winding.wire_length, "m"),
+    }
+
+
+def order_sheet(design: TransformerDesign, data: TransformerData | None = None) -> dict:
+    """The data of an order sheet for a transformer winder: what to make, with nothing left to guess.
+
+    Values are display strings with units (booleans for yes/no fields). Lead colours and terminal
+    markings are left blank for builder and winder to agree; the hi-pot test defers to the applicable
+    safety standard and carries no number.
+
+    Parameters
+    ----------
+    design : TransformerDesign
+        From :func:`build_from_block` or :meth:`TransformerPopulation.design`.
+    data : TransformerData, optional
+        The parts data the design was made with; the packaged data files when omitted.
+
+    Returns
+    -------
+    dict
+    """
+    data = data if data is not None else load_transformer_data()
+    mounting = design.build.mounting if design.build is not None else ""
+    class_temperature = data.class_temperature(design.insulation_class)
+    allowance = data.wire.winding_practice.hot_spot_allowance
+    steel = next((s for s in data.steels if s.name == design.steel_name), None)
+    screen_text = (
+        "yes: an electrostatic screen (foil, ends insulated from each other, not a shorted turn) between "
+        "primary and secondaries, with its own lead for connection to protective earth"
+        if design.screen
+        else "no"
+    )
+    return {
+        "title": "Mains power transformer: specification for the winder",
+        "primary": _primary_section(design),
+        "secondaries": [_secondary_section(w, design.hv_open_circuit_voltage if w.role == "hv" else None)
+                        for w in design.windings[1:]],
+        "va_rating": format_quantity(design.secondary_va, "VA"),
+        "core": {
+            "lamination": f"{design.core_name}: scrapless EI, tongue {format_quantity(design.tongue_width, 'm')}",
+            "stack": format_quantity(design.stack, "m"),
+            "steel": f"{design.steel_name}" + (f" ({steel.description})" if steel else ""),
+            "maximum_flux_density": f"{format_quantity(design.flux_density, 'T')} at "
+            f"{format_quantity(design.primary_voltages[0], 'V', 4)}, {format_quantity(design.frequency, 'Hz', 3)}",
+        },
+        "insulation": {
+            "class": f"{design.insulation_class} ({class_temperature:.0f} degC, IEC 60085)",
+            "ambient": f"{design.ambient_temperature:.0f} degC",
+            "permitted_temperature_rise": f"{design.temperature_rise_limit:.0f} K average winding rise "
+            f"(class temperature - ambient - {allowance:.0f} K hot-spot allowance)",
+            "estimated_temperature_rise": f"{design.temperature_rise:.0f} K",
+        },
+        "electrostatic_screen": screen_text,
+        "winding_order": " / ".join(design.winding_order) + " (from the core outward)",
+        "hipot_test": "as required by the safety standard that applies to the finished equipment and "
+        "its insulation class (for example IEC 61558-1 for the transformer); test voltage, duration and "
+        "test points to be stated by the winder. No value is set by this sheet.",
+        "mounting": mounting or "to be agreed between builder and winder",
+        "lead_colours_and_terminal_markings": "to be agreed between builder and winder",
+        "estimated_weight": f"{format_quantity(design.mass, 'kg')} (copper and core steel; bobbin, varnish, "
+        "frame and leads extra)",
+        "design_reference": {
+            "note": "The designer's construction, for reference; the winder may substitute an equivalent "
+            "construction that meets every rating above",
+            "windings": [_winding_reference(w) for w in design.windings],
+            "window_fill": f"{design.build_ratio * 100:.0f} % of the usable build",
+            "hv_series_resistance_per_path_hot": format_quantity(design.hv_series_resistance, "ohm"),
+            "hv_leakage_inductance_per_path": format_quantity(design.hv_leakage_inductance, "H"),
+        },
+        "cautions": list(_CAUTIONS),
+    }
+
+
+_CONSTRUCTION_KEYS = (
+    "electrostatic_screen",
+    "winding_order",
+    "hipot_test",
+    "mounting",
+    "lead_colours_and_terminal_markings",
+    "estimated_weight",
+)
+
+
+def _markdown_value(value) -> str:
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    return str(value) if value != "" else "(to be agreed)"
+
+
+_TITLES = {
+    "rms_current_at_rated_load": "RMS current at rated load",
+    "rms_current_rating": "RMS current rating",
+    "maximum_dc_resistance_at_20C": "Maximum DC resistance at 20 degC",
+    "va_rating": "VA rating",
+    "hipot_test": "Hi-pot (dielectric strength) test",
+    "hv_series_resistance_per_path_hot": "HV series resistance per conducting path, hot (R_s)",
+    "hv_leakage_inductance_per_path": "HV leakage inductance per conducting path",
+    "estimated_voltage_at_rated_load": "Estimated V at rated load",
+}
+
+
+def _markdown_title(key: str) -> str:
+    text = _TITLES.get(key, key.replace("_", " "))
+    return text[:1].upper() + text[1:]
+
+
+def order_sheet_markdown(sheet: dict) -> str:
+    """Render :func:`order_sheet` data as Markdown for printing or sending to a winder."""
+    lines = [f"# {sheet['title']}", ""]
+    lines += ["## Primary", ""] + [f"- {_markdown_title(k)}: {_markdown_value(v)}" for k, v in sheet["primary"].items()]
+    lines += ["", "## Secondaries", ""]
+    for winding in sheet["secondaries"]:
+        lines += [f"### {winding['name']}", ""]
+        lines += [f"- {_markdown_title(k)}: {_markdown_value(v)}" for k, v in winding.items() if k != "name"]
+        lines += [""]
+    lines += ["## Rating and construction", "", f"- {_markdown_title('va_rating')}: {sheet['va_rating']}"]
+    lines += [f"- {_markdown_title(k)}: {v}" for k, v in sheet["core"].items()]
+    lines += [f"- Insulation, {_markdown_title(k).lower()}: {v}" for k, v in sheet["insulation"].items()]
+    for key in _CONSTRUCTION_KEYS:
+        lines.append(f"- {_markdown_title(key)}: {sheet[key]}")
+    reference = sheet["design_reference"]
+    lines += ["", "## Design reference", "", f"_{reference['note']}._", ""]
+    columns = list(reference["windings"][0].keys())
+    lines.append("| " + " | ".join(_markdown_title(c) for c in columns) + " |")
+    lines.append("|" + "---|" * len(columns))
+    for row in reference["windings"]:
+        lines.append("| " + " | ".join(str(row[c]) for c in columns) + " |")
+    lines += [""] + [f"- {_markdown_title(k)}: {v}" for k, v in reference.items() if k not in ("note", "windings")]
+    lines += ["", "## Cautions", ""] + [f"- {c}" for c in sheet["cautions"]]
+    return "\n".join(lines) + "\n"
