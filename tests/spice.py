@@ -695,12 +695,15 @@ def _window(t: np.ndarray, y: np.ndarray, t0: float, t1: float) -> tuple[np.ndar
     return tw, yw
 
 
+_trapezoid = getattr(np, "trapezoid", None) or np.trapz  # numpy < 2 has only trapz
+
+
 def _mean(t, y):
-    return float(np.trapezoid(y, t) / (t[-1] - t[0]))
+    return float(_trapezoid(y, t) / (t[-1] - t[0]))
 
 
 def _rms(t, y):
-    return float(math.sqrt(max(np.trapezoid(y * y, t) / (t[-1] - t[0]), 0.0)))
+    return float(math.sqrt(max(_trapezoid(y * y, t) / (t[-1] - t[0]), 0.0)))
 
 
 def _conducting_time(t, y, threshold):
