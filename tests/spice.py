@@ -172,6 +172,39 @@ def _quantity(block: dict, key: str, dimension: str, where: str, *, required: bo
     return value
 
 
+def _part(rectifier: dict, kind: str) -> dict:
+    """A rectifier's ``diode`` or ``valve`` block: parameters as given, or a part name resolved in
+    Railwright's parts catalogue (data files with provenance). A missing diode is the solver's
+    default part, so both simulate the same circuit."""
+    value = rectifier.get(kind)
+    if value is None and kind == "diode":
+        from optimiser.evaluation import DEFAULT_DIODE
+
+        value = DEFAULT_DIODE
+    if isinstance(value, str):
+        from optimiser import parts
+
+        try:
+            part = parts.find_part(kind, value)
+        except LookupError as error:
+            raise DesignError(f"rectifier.{kind}: {error}") from None
+        if kind == "valve":
+            return {"perveance": part.perveance}
+        return {
+            "saturation_current": f"{part.saturation_current:.17g} A",
+            "emission_coefficient": part.emission_coefficient,
+            "series_resistance": f"{part.series_resistance:.17g} ohm",
+        }
+    return _block(rectifier, kind, "rectifier.", required=False)
+
+
+def _parallel(first: float | None, second: float | None) -> float | None:
+    """Two optional resistances in parallel. [ohm]"""
+    if first is None or second is None:
+        return first if second is None else second
+    return first * second / (first + second)
+
+
 def _winding_resistance(transformer: dict) -> float:
     resistance = _quantity(transformer, "secondary_resistance", "resistance", "transformer.", positive=False)
     if resistance < _MIN_WINDING_RESISTANCE:
@@ -183,23 +216,31 @@ def _winding_resistance(transformer: dict) -> float:
     return resistance
 
 
-def _parse(design) -> _Design:
+def _parse(design, loads: str = "full") -> _Design:
+    """Read a design; ``loads`` picks the current of an idle/full-power load ("full" or "idle")."""
+    if loads not in ("full", "idle"):
+        raise DesignError(f"loads must be 'full' or 'idle', got {loads!r}")
     if isinstance(design, (str, Path)):
         design = load_design(design)
     if not isinstance(design, dict):
         raise DesignError(f"a design must be a dict or a path to a YAML file, got {type(design).__name__}")
     mains = _block(design, "mains", "")
     transformer = _block(design, "transformer", "")
+    if "build" in transformer:
+        raise DesignError("transformer.build: the reference harness needs the equivalent "
+                          "(secondary_voltage, secondary_resistance, leakage_inductance)")
     rectifier = _block(design, "rectifier", "")
     topology = rectifier.get("topology")
+    if topology == "switchable":
+        raise DesignError("rectifier.topology: simulate each position of a switchable rectifier as its own design")
     if topology not in TOPOLOGIES:
         raise DesignError(f"rectifier.topology must be one of {', '.join(TOPOLOGIES)}; got {topology!r}")
-    diode = _block(rectifier, "diode", "rectifier.", required=False)
-    valve = _block(rectifier, "valve", "rectifier.", required=False)
+    valve = _part(rectifier, "valve")
     perveance = _quantity(valve, "perveance", "perveance", "rectifier.valve.", required=bool(valve))
     if topology == "hybrid-bridge" and perveance is None:
         raise DesignError("rectifier.valve.perveance is required for a hybrid-bridge")
     needs_silicon = topology != "centre-tap" or perveance is None
+    diode = _part(rectifier, "diode") if needs_silicon else {}
     saturation = _quantity(diode, "saturation_current", "current", "rectifier.diode.", required=needs_silicon)
     emission = _quantity(diode, "emission_coefficient", "fraction", "rectifier.diode.", required=needs_silicon)
     diode_rs = _quantity(diode, "series_resistance", "resistance", "rectifier.diode.", required=False, positive=False)
@@ -217,9 +258,15 @@ def _parse(design) -> _Design:
         if name in names:
             raise DesignError(f"{where}name {name!r} is used twice")
         names.add(name)
-        load = _block(raw, "load", where, required=False)
+        load = dict(_block(raw, "load", where, required=False))
+        pair = ("idle_current", "full_power_current")
+        if any(key in load for key in pair):
+            if not all(key in load for key in pair) or "current" in load or "resistance" in load:
+                raise DesignError(f"{where}load: idle_current and full_power_current go together, alone")
+            load = {"current": load[pair[0] if loads == "idle" else pair[1]]}
         if load and ("current" in load) == ("resistance" in load):
             raise DesignError(f"{where}load must give exactly one of current or resistance")
+        bleeder = _quantity(raw, "bleeder", "resistance", where, required=False)
         feed = _block(raw, "feed", where, required=False)
         if index > 0 and not feed:
             raise DesignError(f"{where}feed is required: every node after the first hangs from a feed")
@@ -233,7 +280,9 @@ def _parse(design) -> _Design:
                 capacitance=_quantity(raw, "capacitance", "capacitance", where, required=False),
                 esr=_quantity(raw, "esr", "resistance", where, required=False, positive=False) or 0.0,
                 load_current=_quantity(load, "current", "current", where + "load.", required=False, positive=False),
-                load_resistance=_quantity(load, "resistance", "resistance", where + "load.", required=False),
+                load_resistance=_parallel(
+                    _quantity(load, "resistance", "resistance", where + "load.", required=False), bleeder
+                ),
                 feed_resistance=(feed_r or 0.0) if feed else None,
                 feed_inductance=feed_l,
             )
@@ -561,7 +610,8 @@ def _netlist(d: _Design, state: dict, cycles: int, numerics: _Numerics, data_fil
     return "\n".join(lines) + "\n"
 
 
-def netlist(design, *, cycles: int | None = None, step: float | None = None, temperature: float = 27.0) -> str:
+def netlist(design, *, cycles: int | None = None, step: float | None = None, temperature: float = 27.0,
+            loads: str = "full") -> str:
     """The ngspice netlist of a design, starting from the harness's estimated state.
 
     Parameters
@@ -574,8 +624,10 @@ def netlist(design, *, cycles: int | None = None, step: float | None = None, tem
         Maximum time step. [s] Default one 2000th of the mains period.
     temperature : float
         Device temperature. [degC] 27 is SPICE's default.
+    loads : {"full", "idle"}
+        Which current of an idle/full-power load to draw.
     """
-    d = _parse(design)
+    d = _parse(design, loads)
     numerics = _Numerics(step=step or d.period / _STEPS_PER_CYCLE, reltol=1e-6, temperature=temperature)
     cycles = cycles or _chunk_cycles(d, _slowest_time_constant(d, temperature))
     return _netlist(d, _estimate_state(d, temperature), cycles, numerics, "data.txt")
@@ -818,6 +870,7 @@ def simulate(
     reltol: float = 1e-6,
     conduction_threshold: float = 1e-4,
     timeout: float = 300.0,
+    loads: str = "full",
 ) -> dict:
     """Simulate a design with ngspice to periodic steady state and measure its last mains cycle.
 
@@ -845,6 +898,8 @@ def simulate(
         An element counts as conducting while its current exceeds this fraction of its peak. [-]
     timeout : float
         Longest one ngspice run may take. [s]
+    loads : {"full", "idle"}
+        Which current of an idle/full-power load to draw (Railwright's solver defaults to full).
 
     Returns
     -------
@@ -862,7 +917,7 @@ def simulate(
         ``temperature`` [degC], ``integration`` = the ngspice set-ups that ran); ``wall_time`` [s].
     """
     started = time.perf_counter()
-    d = _parse(design)
+    d = _parse(design, loads)
     if not spice_available():
         raise SpiceError("ngspice not found on PATH; install Debian package ngspice")
     period = d.period
@@ -1014,13 +1069,16 @@ def main(argv=None) -> int:
     parser.add_argument("design", help="design YAML file")
     parser.add_argument("--cycles", type=int, help="simulate exactly this many cycles (no steady-state loop)")
     parser.add_argument("--step", type=float, help="maximum time step in seconds")
+    parser.add_argument("--loads", choices=("full", "idle"), default="full",
+                        help="current of idle/full-power loads (default full)")
     parser.add_argument("--netlist", action="store_true", help="print the netlist instead of simulating")
     args = parser.parse_args(argv)
+    options = {"cycles": args.cycles, "step": args.step, "loads": args.loads}
     try:
         if args.netlist:
-            sys.stdout.write(netlist(args.design, cycles=args.cycles, step=args.step))
+            sys.stdout.write(netlist(args.design, **options))
         else:
-            print(json.dumps(simulate(args.design, cycles=args.cycles, step=args.step), indent=2))
+            print(json.dumps(simulate(args.design, **options), indent=2))
     except (DesignError, SpiceError, OSError) as error:
         print(f"error: {error}", file=sys.stderr)
         return 1

@@ -10,6 +10,7 @@ the fast solver, not a property of a source.
 from __future__ import annotations
 
 import functools
+from pathlib import Path
 
 import pytest
 
@@ -33,6 +34,7 @@ CIRCUIT_QUANTITIES = {
     "secondary_rms_current": WAVEFORM_TOLERANCE,
 }
 CASES = sorted(spice.invented_designs())
+DEMO_DESIGNS = sorted((Path(__file__).resolve().parents[1] / "specs").glob("demo-design-*.yaml"))
 
 
 @functools.lru_cache(maxsize=None)
@@ -71,6 +73,17 @@ def test_solver_agrees_with_ngspice(case):
     assert expected["steady_state"]["settle_error"] <= 2e-6
     problems = discrepancies(solver(case), expected)
     assert not problems, f"invented test case {case!r}:\n  " + "\n  ".join(problems)
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("path", DEMO_DESIGNS, ids=lambda path: path.stem)
+def test_solver_agrees_with_ngspice_on_the_demo_designs(path):
+    try:
+        expected = spice.simulate(path)
+    except spice.DesignError as error:
+        pytest.skip(f"the reference harness cannot represent {path.name}: {error}")
+    problems = discrepancies(optimiser.evaluate(path).to_dict(), expected)
+    assert not problems, f"{path.name} (full-power loads):\n  " + "\n  ".join(problems)
 
 
 def test_population_call_gives_one_row_per_design():

@@ -120,6 +120,29 @@ def test_netlist_of_choke_input_puts_the_choke_before_the_reservoir():
     assert "LS1 x1 ac1 0.02 IC=" in text
 
 
+def test_part_names_bleeders_and_idle_full_loads_are_read_like_the_solver_reads_them():
+    from optimiser import parts
+
+    case = design("bridge", "300 V", "50 ohm", [
+        {"name": "plates", "capacitance": "100 uF", "bleeder": "100 kohm",
+         "load": {"idle_current": "80 mA", "full_power_current": "200 mA"}},
+    ], diode=None)
+    case["rectifier"]["diode"] = "1N4007"
+    diode = parts.find_part("diode", "1N4007")
+    full = spice.netlist(case)
+    assert f"IS={diode.saturation_current:.12g} N={diode.emission_coefficient:.12g}" in full
+    assert "IL1 n1 0 DC 0.2" in full and "RL1 n1 0 100000" in full
+    assert "IL1 n1 0 DC 0.08" in spice.netlist(case, loads="idle")
+    valve_case = design("centre-tap", "300 V", "100 ohm", [{"capacitance": "32 uF", "load": {"current": "70 mA"}}],
+                        diode=None)
+    valve_case["rectifier"]["valve"] = "5AR4"
+    perveance = parts.find_part("valve", "5AR4").perveance
+    assert f"I={perveance:.12g}*pow(" in spice.netlist(valve_case)
+    valve_case["rectifier"]["valve"] = "no-such-valve"
+    with pytest.raises(spice.DesignError, match="rectifier.valve"):
+        spice.netlist(valve_case)
+
+
 @pytest.mark.parametrize(
     ("change", "message"),
     [
@@ -131,6 +154,9 @@ def test_netlist_of_choke_input_puts_the_choke_before_the_reservoir():
         (lambda d: d["transformer"].update(secondary_resistance="0 ohm"), "must be >= 10 mohm"),
         (lambda d: d["rectifier"]["diode"].update(emission_coefficient=0), "emission_coefficient must be > 0"),
         (lambda d: d.pop("mains"), "mains is required"),
+        (lambda d: d["rectifier"].update(topology="switchable"), "each position of a switchable"),
+        (lambda d: d["transformer"].update(build={"core": "EI-96"}), "transformer.build"),
+        (lambda d: d["nodes"][0].update(load={"idle_current": "1 mA"}), "go together"),
     ],
 )
 def test_bad_designs_are_refused_with_the_field_named(change, message):
