@@ -49,7 +49,8 @@ from typing import Annotated, Literal, Optional
 from pydantic import BeforeValidator, Field, field_validator, model_validator
 
 from . import parts
-from .design import Conditions, DesignError, _locate, read_yaml, validate
+from .design import Conditions
+from .yamlfile import DesignError, _positioned, read_yaml, validate
 from .schema import (
     Capacitance,
     Current,
@@ -624,13 +625,7 @@ def _cross_problems(spec: Spec):
 
 def _spec_from(data, node=None, source="spec") -> Spec:
     spec = validate(Spec, data, node, source)
-    problems = []
-    for loc, message in _cross_problems(spec):
-        target, dotted = _locate(node, loc) if node is not None else (None, ".".join(loc))
-        where = source
-        if target is not None and hasattr(target, "start_mark"):
-            where = f"{source}:{target.start_mark.line + 1}:{target.start_mark.column + 1}"
-        problems.append(f"{where}: {dotted}: {message}")
+    problems = [_positioned(node, loc, message, source) for loc, message in _cross_problems(spec)]
     if problems:
         raise DesignError(problems)
     return spec
