@@ -24,8 +24,8 @@ from pymoo.core.problem import Problem
 from pymoo.core.repair import Repair
 from pymoo.operators.mutation.pm import PM
 
-__all__ = ["Variable", "IntegerRepair", "IndexResetMutation", "VectorProblem", "SearchResult", "run", "non_dominated",
-           "random_population", "knee"]
+__all__ = ["Variable", "IntegerRepair", "IndexResetMutation", "VectorProblem", "SearchResult",
+           "run", "non_dominated", "random_population", "knee"]
 
 
 @dataclass(frozen=True)

@@ -127,9 +127,11 @@ class NodeSpec(Strict):
     @model_validator(mode="after")
     def _consistent(self):
         if self.window >= self.dc_voltage:
-            raise ValueError("window must be smaller than dc_voltage (it is the +/- band around it)")
+            raise ValueError("window must be smaller than dc_voltage (it is the +/- band "
+                             "around it)")
         if self.ripple is not None and self.hum is not None:
-            raise ValueError("give the ripple limit once: either ripple (V p-p) or hum (dB below DC)")
+            raise ValueError("give the ripple limit once: either ripple (V p-p) or hum (dB "
+                             "below DC)")
         if self.idle_current <= 0 and self.full_power_current <= 0:
             raise ValueError("idle_current and full_power_current cannot both be 0 A")
         return self
