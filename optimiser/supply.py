@@ -346,31 +346,48 @@ def periodic_steady_state(model: StateSpace, elements: PathElements, peak, frequ
     cap = model.capacitor_voltage_index
     converged = np.zeros(batch, dtype=bool)
     residual = np.full(batch, np.inf)
-    best = None
+    times = None
+    xs = np.empty((batch, steps + 1, n))
+    es, iss, ds, src = (np.empty((batch, steps + 1)) for _ in range(4))
+    active = np.arange(batch)
     for _ in range(max_newton):
-        run = _march(disc, c_row, d_row, loads, peak, omega, x0, e0, elements, steps, 0.0, True)
-        times, xs, es, iss, ds, src, jac = run
-        r = np.concatenate([xs[:, -1] - x0, (es[:, -1] - e0)[:, None]], axis=1)
-        residual = np.max(np.abs(r[:, :n][:, cap]), axis=1) if cap.size else np.zeros(batch)
-        converged = residual <= tol * np.maximum(peak, 1.0)
-        best = run
-        if np.all(converged):
+        # only the designs not yet periodic are marched again
+        sub = _take_disc(disc, active)
+        times, xa, ea, ia, da, sa, jac = _march(
+            sub, c_row[active], d_row[active], loads[active], peak[active], omega, x0[active],
+            e0[active], elements.take(active), steps, 0.0, True)
+        xs[active], es[active], iss[active], ds[active], src[active] = xa, ea, ia, da, sa
+        r = np.concatenate([xa[:, -1] - x0[active], (ea[:, -1] - e0[active])[:, None]], axis=1)
+        res = np.max(np.abs(r[:, :n][:, cap]), axis=1) if cap.size else np.zeros(active.size)
+        done = res <= tol * np.maximum(peak[active], 1.0)
+        residual[active] = res
+        converged[active] = done
+        if np.all(done):
             break
-        system = jac - np.eye(n + 1)[None]
-        try:
-            delta = np.linalg.solve(system, -r[:, :, None])[:, :, 0]
-        except np.linalg.LinAlgError:
-            delta = np.linalg.lstsq(system.reshape(-1, n + 1), -r.reshape(-1), rcond=None)[0]
-            delta = delta.reshape(batch, n + 1)
+        delta = _newton_step(jac - np.eye(n + 1)[None], -r)
         # keep a Newton step from throwing node voltages far outside the physical range
         vmax = np.max(np.abs(delta[:, :n] * scale[None, :]), axis=1)
-        damp = np.minimum(1.0, 0.5 * np.maximum(peak, 1.0) / np.maximum(vmax, 1e-300))
-        delta *= np.where(converged, 0.0, damp)[:, None]
-        x0 = x0 + delta[:, :n]
-        e0 = e0 + delta[:, n]
-    times, xs, es, iss, ds, src, _ = best
+        damp = np.minimum(1.0, 0.5 * np.maximum(peak[active], 1.0) / np.maximum(vmax, 1e-300))
+        delta *= np.where(done, 0.0, damp)[:, None]
+        x0[active] += delta[:, :n]
+        e0[active] += delta[:, n]
+        active = active[~done]
     return Waveforms(time=times, state=xs, drive=es, current=iss, drop=ds, source=src,
                      converged=converged, residual=residual)
+
+
+def _take_disc(disc: Discretisation, index) -> Discretisation:
+    return Discretisation(step=disc.step, phi=disc.phi[index], input_now=disc.input_now[index],
+                          input_next=disc.input_next[index])
+
+
+def _newton_step(system, rhs):
+    """Solve each design's Newton system; a singular one (no conduction at all, say) by least
+    squares."""
+    try:
+        return np.linalg.solve(system, rhs[:, :, None])[:, :, 0]
+    except np.linalg.LinAlgError:
+        return np.stack([np.linalg.lstsq(a, b, rcond=None)[0] for a, b in zip(system, rhs)])
 
 
 def _is_voltage(model: StateSpace, n):
