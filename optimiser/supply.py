@@ -189,6 +189,46 @@ def _march_kernel(phi, ga, gb, kappa, c_row, beta, d_e, load_feed, peak, sines, 
                 q += c_row[b, r] * y[r]
             i, d, sens, z = path_step(q, beta[b], si[b], vv[b], isat[b], nem[b], rs[b], perv[b],
                                       z)
+            if i <= 0.0 and d_e[b] == 0.0:
+                # Blocked inductive path (its current is a state): hold the drive constant over
+                # the step at the value that keeps the current at zero. A first-order hold from
+                # the last conducting value rings (the trapezoidal rule's undamped mode) into
+                # false pulses. A resistive path has no such mode and keeps the first-order hold.
+                den = d_e[b]
+                acc0 = load_feed[b]
+                for r in range(n):
+                    den += c_row[b, r] * (ga[b, r] + gb[b, r])
+                    acc = kappa[b, r]
+                    for c in range(n):
+                        acc += phi[b, r, c] * x[c]
+                    y[r] = acc
+                    acc0 += c_row[b, r] * acc
+                e_hold = -acc0 / den
+                for r in range(n):
+                    x[r] = y[r] + (ga[b, r] + gb[b, r]) * e_hold
+                d = src - e_hold
+                if want_jac:
+                    for r in range(n):
+                        for c in range(n + 1):
+                            acc = 0.0
+                            for m in range(n):
+                                acc += phi[b, r, m] * jx[m, c]
+                            dy[r, c] = acc
+                    for c in range(n + 1):
+                        acc = 0.0
+                        for r in range(n):
+                            acc += c_row[b, r] * dy[r, c]
+                        je[c] = -acc / den
+                    for r in range(n):
+                        for c in range(n + 1):
+                            jx[r, c] = dy[r, c] + (ga[b, r] + gb[b, r]) * je[c]
+                e = src - d
+                for r in range(n):
+                    xs[b, k, r] = x[r]
+                es[b, k] = e
+                iss[b, k] = 0.0
+                ds[b, k] = d
+                continue
             for r in range(n):
                 x[r] = y[r] - gb[b, r] * d
             if want_jac:
@@ -306,31 +346,48 @@ def periodic_steady_state(model: StateSpace, elements: PathElements, peak, frequ
     cap = model.capacitor_voltage_index
     converged = np.zeros(batch, dtype=bool)
     residual = np.full(batch, np.inf)
-    best = None
+    times = None
+    xs = np.empty((batch, steps + 1, n))
+    es, iss, ds, src = (np.empty((batch, steps + 1)) for _ in range(4))
+    active = np.arange(batch)
     for _ in range(max_newton):
-        run = _march(disc, c_row, d_row, loads, peak, omega, x0, e0, elements, steps, 0.0, True)
-        times, xs, es, iss, ds, src, jac = run
-        r = np.concatenate([xs[:, -1] - x0, (es[:, -1] - e0)[:, None]], axis=1)
-        residual = np.max(np.abs(r[:, :n][:, cap]), axis=1) if cap.size else np.zeros(batch)
-        converged = residual <= tol * np.maximum(peak, 1.0)
-        best = run
-        if np.all(converged):
+        # only the designs not yet periodic are marched again
+        sub = _take_disc(disc, active)
+        times, xa, ea, ia, da, sa, jac = _march(
+            sub, c_row[active], d_row[active], loads[active], peak[active], omega, x0[active],
+            e0[active], elements.take(active), steps, 0.0, True)
+        xs[active], es[active], iss[active], ds[active], src[active] = xa, ea, ia, da, sa
+        r = np.concatenate([xa[:, -1] - x0[active], (ea[:, -1] - e0[active])[:, None]], axis=1)
+        res = np.max(np.abs(r[:, :n][:, cap]), axis=1) if cap.size else np.zeros(active.size)
+        done = res <= tol * np.maximum(peak[active], 1.0)
+        residual[active] = res
+        converged[active] = done
+        if np.all(done):
             break
-        system = jac - np.eye(n + 1)[None]
-        try:
-            delta = np.linalg.solve(system, -r[:, :, None])[:, :, 0]
-        except np.linalg.LinAlgError:
-            delta = np.linalg.lstsq(system.reshape(-1, n + 1), -r.reshape(-1), rcond=None)[0]
-            delta = delta.reshape(batch, n + 1)
+        delta = _newton_step(jac - np.eye(n + 1)[None], -r)
         # keep a Newton step from throwing node voltages far outside the physical range
         vmax = np.max(np.abs(delta[:, :n] * scale[None, :]), axis=1)
-        damp = np.minimum(1.0, 0.5 * np.maximum(peak, 1.0) / np.maximum(vmax, 1e-300))
-        delta *= np.where(converged, 0.0, damp)[:, None]
-        x0 = x0 + delta[:, :n]
-        e0 = e0 + delta[:, n]
-    times, xs, es, iss, ds, src, _ = best
+        damp = np.minimum(1.0, 0.5 * np.maximum(peak[active], 1.0) / np.maximum(vmax, 1e-300))
+        delta *= np.where(done, 0.0, damp)[:, None]
+        x0[active] += delta[:, :n]
+        e0[active] += delta[:, n]
+        active = active[~done]
     return Waveforms(time=times, state=xs, drive=es, current=iss, drop=ds, source=src,
                      converged=converged, residual=residual)
+
+
+def _take_disc(disc: Discretisation, index) -> Discretisation:
+    return Discretisation(step=disc.step, phi=disc.phi[index], input_now=disc.input_now[index],
+                          input_next=disc.input_next[index])
+
+
+def _newton_step(system, rhs):
+    """Solve each design's Newton system; a singular one (no conduction at all, say) by least
+    squares."""
+    try:
+        return np.linalg.solve(system, rhs[:, :, None])[:, :, 0]
+    except np.linalg.LinAlgError:
+        return np.stack([np.linalg.lstsq(a, b, rcond=None)[0] for a, b in zip(system, rhs)])
 
 
 def _is_voltage(model: StateSpace, n):
