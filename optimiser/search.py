@@ -158,7 +158,7 @@ class VectorProblem(Problem):
     least value each constraint reached over the whole run (to say which could never be met).
     """
 
-    def __init__(self, definition, pool=None, workers=1):
+    def __init__(self, definition, pool=None, workers=1, chunks=1):
         self.definition = definition
         self.variables = list(definition.variables)
         self.lower, self.upper, self.integer, xl, xu = _bounds(self.variables)
@@ -167,6 +167,7 @@ class VectorProblem(Problem):
                          n_ieq_constr=self.n_constraints, xl=xl, xu=xu, elementwise=False)
         self.pool = pool
         self.workers = workers
+        self.chunks = chunks
         self.physics_time = 0.0
         self.evaluations = 0
         self.best_constraints = np.full(self.n_constraints, np.inf)
@@ -178,13 +179,18 @@ class VectorProblem(Problem):
 
     def _evaluate(self, x, out, *args, **kwargs):
         start = time.perf_counter()
-        if self.pool is not None and len(x) >= 2 * self.workers:
-            chunks = np.array_split(x, self.workers)
-            results = list(self.pool.map(_worker_evaluate, chunks))
-            F = np.vstack([r[0] for r in results])
-            G = np.vstack([r[1] for r in results])
+        # the split does not depend on where the pieces run, so that the figures (which can
+        # differ in their last digits with the batch a design is solved in) and hence the
+        # front are the same whatever the number of workers
+        pieces = [p for p in np.array_split(x, self.chunks) if len(p)]
+        if self.pool is not None and len(pieces) > 1:
+            results = list(self.pool.map(_worker_evaluate, pieces))
         else:
-            F, G = self.definition.evaluate(x)
+            results = [self.definition.evaluate(p) for p in pieces]
+        F = np.vstack([np.asarray(r[0], float).reshape(len(p), self.n_obj)
+                       for r, p in zip(results, pieces)])
+        G = np.vstack([np.asarray(r[1], float).reshape(len(p), self.n_constraints)
+                       for r, p in zip(results, pieces)])
         self.physics_time += time.perf_counter() - start
         self.evaluations += len(x)
         F = np.asarray(F, float).reshape(len(x), self.n_obj)
@@ -311,7 +317,7 @@ def _make_callback(objective_names, history, bar):
 
 
 def run(definition, population=100, generations=40, seed=1, workers=1, progress=False,
-        initial=None) -> SearchResult:
+        initial=None, chunks=None) -> SearchResult:
     """Search a definition with NSGA-II for a fixed number of generations.
 
     Parameters
@@ -325,7 +331,10 @@ def run(definition, population=100, generations=40, seed=1, workers=1, progress=
     seed : int
         Seed of the one random generator every operator draws from: same seed, same front.
     workers : int
-        Processes to split each population across (1: evaluate in this process).
+        Processes to evaluate the population in (1: in this process).
+    chunks : int, optional
+        Pieces each population is evaluated in; default ``max(2, workers)``. The front for a
+        seed is reproducible for a given number of chunks, however many workers run them.
     progress : bool
         Show a progress bar on stderr (the caller decides; e.g. only on a terminal).
     initial : ndarray, optional
@@ -347,7 +356,8 @@ def run(definition, population=100, generations=40, seed=1, workers=1, progress=
             # start every worker now, before a progress bar's monitor thread exists (forking a
             # process that runs threads can deadlock)
             list(pool.map(_worker_ready, range(workers)))
-        problem = VectorProblem(definition, pool=pool, workers=workers)
+        problem = VectorProblem(definition, pool=pool, workers=workers,
+                                chunks=chunks or max(2, workers))
         repair = IntegerRepair(problem.variables)
         kwargs = {}
         if initial is not None:

@@ -357,3 +357,9 @@ def test_decode_encode_round_trip(small):
     candidates = binding.decode(X)
     again = binding.decode(np.array([binding.encode(c) for c in candidates]))
     assert again == candidates
+
+
+def test_worker_processes_give_the_same_front(small):
+    opt = small["opt"]
+    two = optimise(load_spec(small["spec_path"]), workers=2)
+    np.testing.assert_array_equal(two.scored.F[two.front], opt.scored.F[opt.front])
