@@ -111,7 +111,7 @@ class ConstraintInfo:
         if not math.isfinite(g):
             return "not computable (the solution failed)"
         if self.unit == "ratio":
-            return f"ratio {g + 1.0:.3g} against a limit of 1 ({100 * g:.3g} % over)"
+            return f"ratio {g + 1.0:.4g} against a limit of 1 ({100 * g:.3g} % over)"
         if self.unit == "%":
             return f"{100 * g * self.scale:.3g} percentage points outside"
         if self.unit == "flag":
@@ -231,8 +231,7 @@ class CoDesign:
         update = {k: v for k, v in spec.costs.transformer.model_dump().items() if v is not None}
         self.transformer_data = replace(data, prices=data.prices.model_copy(update=update))
         self.steel_index = data.steel_index(t.steel)
-        steel = data.steels[self.steel_index]
-        self.max_flux_density = t.max_flux_density or steel.max_flux_density
+        self.max_flux_density = t.max_flux_density
         self.primaries = list(t.primaries or [spec.mains.voltage])
         names = t.cores or [core.name for core in data.cores]
         self.core_stacks = [(data.core_index(name), name, float(stack)) for name in names

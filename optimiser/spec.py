@@ -30,6 +30,7 @@ Sections::
     transformer:                     # the physical transformer the search designs
       cores: [EI-a28, EI-a32, EI-a35]  # default: every core in cores.yaml, all their stacks
       steel: NO-M27-like
+      max_flux_density: 1.3 T        # design figure, below the steel's 1.4 T limit
       current_density: {min: 2 A/mm^2, max: 4.5 A/mm^2}
       insulation_class: B
     conditions: {transformer_tolerance: 5 %}   # the design file's conditions (see design.py)
@@ -473,14 +474,16 @@ class TransformerChoices(Strict):
     """The physical transformer: what the search may pick, and how it is built.
 
     ``cores`` lists lamination names from ``cores.yaml`` (default: all); every catalogued stack
-    of each is a choice. ``max_flux_density`` defaults to the steel's own limit.
+    of each is a choice. ``max_flux_density`` is the design flux density; keep it below the
+    steel's limit (``steels.yaml``), which the finished transformer is checked against: whole
+    turns and the highest primary tap put the real peak a little above the design figure.
     """
 
     primaries: Optional[list[Annotated[Voltage, Positive]]] = None
     primary_arrangement: Literal["taps", "dual"] = "taps"
     cores: Optional[list[str]] = None
-    steel: str = "transformer-steel"
-    max_flux_density: Optional[Annotated[FluxDensity, Field(gt=0, le=2.0)]] = None
+    steel: str
+    max_flux_density: Annotated[FluxDensity, Field(gt=0, le=2.0)]
     current_density: CurrentDensityRange = CurrentDensityRange(min="2 A/mm^2", max="4.5 A/mm^2")
     insulation_class: Literal["A", "E", "B", "F", "H"] = "B"
     screen: bool = True
@@ -565,7 +568,7 @@ class Spec(Strict):
     heaters: list[Winding] = []
     bias: Optional[BiasWinding] = None
     choices: Choices
-    transformer: TransformerChoices = TransformerChoices()
+    transformer: TransformerChoices
     conditions: Conditions = Conditions()
     margins: Margins = Margins()
     costs: Costs = Costs()
