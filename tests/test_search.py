@@ -365,3 +365,25 @@ def test_worker_processes_give_the_same_front(small):
     opt = small["opt"]
     two = optimise(load_spec(small["spec_path"]), workers=2)
     np.testing.assert_array_equal(two.scored.F[two.front], opt.scored.F[opt.front])
+
+
+def test_switchable_pair_is_scored_and_round_trips_through_its_design_file(tmp_path):
+    from optimiser.outputs import design_yaml
+
+    text = SMALL.replace(
+        "    - {topology: centre-tap, valve: 5AR4}\n",
+        "    - {topology: centre-tap, valve: 5AR4}\n"
+        "    - {topology: switchable, positions: {silicon: {topology: centre-tap, diode: UF4007},"
+        " valve: {topology: centre-tap, valve: 5AR4}}}\n")
+    binding = CoDesign(load_spec(write(tmp_path / "s.yaml", text)))
+    assert any(name.startswith("valve/") for name in binding.check_names)
+    X = search.random_population(binding.variables, 4, seed=1)
+    X[:, 4] = 2  # the switchable option
+    scored = binding.score(binding.designs(binding.decode(X)))
+    assert (scored.frame["cost.hardware"] > 0).all()  # the changeover switch is priced
+    files = []
+    for i, design in enumerate(scored.designs):
+        files.append(write(tmp_path / f"d{i}.yaml", design_yaml(design)))
+    again = binding.score([load_design(p) for p in files])
+    np.testing.assert_allclose(again.F, scored.F, rtol=1e-9)
+    np.testing.assert_allclose(again.G, scored.G, rtol=1e-6, atol=1e-9)
