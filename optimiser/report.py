@@ -210,10 +210,19 @@ def _styled(plot):
     return styled
 
 
-def _figure(width, height, rows=1, cols=1, **kw):
+def _figure(width, height, rows=1, cols=1, *, left=0.72, right=0.15, top=0.28, bottom=0.5,
+            row_gap=0.42, col_gap=0.75, **kw):
+    """A figure with fixed margins and gaps [in] (matplotlib's automatic layouts cost more
+    than the drawing itself)."""
     from matplotlib.figure import Figure
 
-    fig = Figure(figsize=(width, height), layout="constrained")
+    fig = Figure(figsize=(width, height))
+    inner_h = height - top - bottom
+    inner_w = width - left - right
+    axis_h = (inner_h - row_gap * (rows - 1)) / rows
+    axis_w = (inner_w - col_gap * (cols - 1)) / cols
+    fig.subplots_adjust(left=left / width, right=1 - right / width, bottom=bottom / height,
+                        top=1 - top / height, hspace=row_gap / axis_h, wspace=col_gap / axis_w)
     return fig, fig.subplots(rows, cols, squeeze=False, **kw)
 
 
@@ -451,6 +460,13 @@ def _ratio_cell(check) -> _Cell:
                  "ratio-cell")
 
 
+def _check_q(value, unit) -> str:
+    """A check's figure or rating; a dimensionless one (a fill factor) as a percentage."""
+    if unit in ("-", "") and value is not None and np.isfinite(value):
+        return f"{100 * value:.0f} %"
+    return _q(value, unit)
+
+
 def _check_name(check) -> str:
     return (f'<span class="check-name">{_e(check.name)}</span>'
             f'<span class="what">{_e(check.what)}</span>')
@@ -476,8 +492,8 @@ def _checks_table(positions) -> str:
     numbers, notes = _sources_list(every)
     if len(positions) == 1:
         a = positions[0][2]
-        rows = [[_verdict(c), _Cell(_check_name(c), c.name), _Cell(_e(_q(c.value, c.unit)),
-                 c.value), _Cell(_e(_q(c.limit, c.unit)), c.limit), _ratio_cell(c),
+        rows = [[_verdict(c), _Cell(_check_name(c), c.name), _Cell(_e(_check_q(c.value, c.unit)),
+                 c.value), _Cell(_e(_check_q(c.limit, c.unit)), c.limit), _ratio_cell(c),
                  _Cell(f"[{numbers[c.source]}]", numbers[c.source])]
                 for c in _order_checks(a.checks)]
         return _table(["verdict", "check (what is compared)", "worst figure", "rating",
@@ -497,8 +513,8 @@ def _checks_table(positions) -> str:
             if c is None:
                 row += [_Cell("does not apply", cls="na"), "", "", "", ""]
             else:
-                row += [_verdict(c), _Cell(_e(_q(c.value, c.unit)), c.value),
-                        _Cell(_e(_q(c.limit, c.unit)), c.limit), _ratio_cell(c),
+                row += [_verdict(c), _Cell(_e(_check_q(c.value, c.unit)), c.value),
+                        _Cell(_e(_check_q(c.limit, c.unit)), c.limit), _ratio_cell(c),
                         _Cell(f"[{numbers[c.source]}]", numbers[c.source])]
         rows.append(row)
     headers = ["check (what is compared)"] + ["verdict", "worst figure", "rating",
@@ -560,7 +576,7 @@ def _figures_table(positions) -> str:
             text = f"{value:.0f}\u00b0" if unit == "\u00b0" else _q(value, unit)
             row.append(_Cell(_e(text), value))
         rows.append(row)
-    row = ["rectifier stress (worst rectifier check ratio)"]
+    row = ["rectifier stress, the worst rectifier check ratio [-]"]
     for _, _, a in positions:
         row.append(_Cell(_e(_q(a.rectifier_stress, "-")), a.rectifier_stress))
     rows.append(row)
@@ -1162,38 +1178,50 @@ def read_front(result_dir) -> Front:
 
 
 def _recommended(frame, ids, root):
+    """(row, reason): the flagged row, else the one summary.md recommends, else the knee."""
+    said = _summary_recommendation(root, ids)
     for c in _FLAG_COLUMNS:
-        if c in frame.columns:
-            flags = [str(v).strip().lower() in _TRUE for v in frame[c]]
-            if any(flags):
-                why = None
-                for w in ("why", "reason", "recommended_why", "recommendation"):
-                    if w in frame.columns and isinstance(frame[w].iloc[flags.index(True)], str):
-                        why = frame[w].iloc[flags.index(True)]
-                return flags.index(True), why
-    summary = root / "summary.md"
-    if summary.is_file():
-        paragraphs = re.split(r"\n\s*\n", summary.read_text(encoding="utf-8"))
-        for k, para in enumerate(paragraphs):
-            if "recommend" not in para.lower():
-                continue
-            # the paragraph naming a design, and the text after it when it is only a heading
-            text = para if not para.lstrip().startswith("#") or k + 1 == len(paragraphs) \
-                else para + "\n" + paragraphs[k + 1]
-            named = [i for i, d in enumerate(ids)
-                     if re.search(rf"(?<![\w-]){re.escape(d)}(?![\w-])", text)]
-            if named:
-                plain = re.sub(r"[#*_`>|]", "", text)
-                return named[0], re.sub(r"\s+", " ", plain).strip()
+        if c not in frame.columns:
+            continue
+        flags = [str(v).strip().lower() in _TRUE for v in frame[c]]
+        if any(flags):
+            row = flags.index(True)
+            for w in ("why", "reason", "recommended_why", "recommendation"):
+                if w in frame.columns and isinstance(frame[w].iloc[row], str):
+                    return row, frame[w].iloc[row]
+            return row, said[1] if said and said[0] == row else None
+    if said:
+        return said
     try:
         from .search import knee
     except ImportError:
         return None, None
     F = frame[list(OBJECTIVES)].to_numpy(dtype=float)
-    if not np.all(np.isfinite(F)) or len(F) == 0:
+    if len(F) == 0 or not np.all(np.isfinite(F)):
         return None, None
-    return int(knee(F)), ("the knee of the front (computed by the report; the run records no "
+    return int(knee(F)), ("the knee of the front, computed by the report (the run records no "
                           "recommendation)")
+
+
+def _summary_recommendation(root, ids):
+    """(row, the paragraph's text) of the design summary.md recommends, or None."""
+    summary = root / "summary.md"
+    if not summary.is_file():
+        return None
+    paragraphs = re.split(r"\n\s*\n", summary.read_text(encoding="utf-8"))
+    for k, para in enumerate(paragraphs):
+        if "recommend" not in para.lower():
+            continue
+        # a heading alone: the paragraph under it says which and why
+        text = para
+        if para.lstrip().startswith("#") and k + 1 < len(paragraphs):
+            text = paragraphs[k + 1]
+        named = [i for i, d in enumerate(ids)
+                 if re.search(rf"(?<![\w-]){re.escape(d)}(?![\w-])", para + "\n" + text)]
+        if named:
+            plain = re.sub(r"[#*_`>|]", "", text)
+            return named[0], re.sub(r"\s+", " ", plain).strip()
+    return None
 
 
 def _section_rows(front: Front) -> list:
@@ -1228,7 +1256,7 @@ def _front_plot(front: Front, anchors, key) -> str:
     values["regulation"] = 100 * values["regulation"]
     pairs = (("cost", "regulation"), ("cost", "rectifier_stress"),
              ("regulation", "rectifier_stress"))
-    fig, ax = _figure(WIDE * 1.1, 3.5, 1, 3)
+    fig, ax = _figure(WIDE * 1.1, 3.6, 1, 3, bottom=0.95, top=0.15)
     urls = [f"#{a}" for a in anchors]
     extremes = _extremes(front)
     markers = {"cheapest": "s", "best regulation": "D", "least rectifier stress": "^"}
@@ -1254,7 +1282,7 @@ def _front_plot(front: Front, anchors, key) -> str:
         axk.margins(0.12)
     handles, labels = ax[0, 0].get_legend_handles_labels()
     unique = dict(zip(labels, handles))
-    fig.legend(unique.values(), unique.keys(), loc="outside lower center", ncol=len(unique))
+    fig.legend(unique.values(), unique.keys(), loc="lower center", ncol=len(unique))
     tips = {}
     for i, a in enumerate(anchors):
         tips[a] = (f"{front.ids[i]}: cost {values['cost'][i]:.1f}, regulation "
@@ -1271,10 +1299,11 @@ def _why(front: Front) -> str:
     facts = (f"It costs {cost[r]:.1f} cost units (cheapest on the front {np.nanmin(cost):.1f}), "
              f"regulates to {100 * reg[r]:.2f} % (best {100 * np.nanmin(reg):.2f} %) and loads "
              f"its rectifier to a stress of {stress[r]:.2f} (least {np.nanmin(stress):.2f}).")
-    told = (f" The run says: \u201c{_e(front.reason)}\u201d" if front.reason else "")
+    told = (f" Why, in the run's words: \u201c{_e(front.reason)}\u201d" if front.reason
+            else "")
     return (f"<p><strong>Recommended: <a href=\"#{_e(_anchor(front.ids[r]))}\">"
-            f"{_e(front.ids[r])}</a>.</strong> It sits at the knee of the front, where giving "
-            "up more of one objective buys little in the others. "
+            f"{_e(front.ids[r])}</a>.</strong> The run recommends a knee of the front: the "
+            "design where giving up more of one objective buys little in the others. "
             f"{_e(facts)}{told}</p>")
 
 
