@@ -112,7 +112,8 @@ def _q(value, unit, digits=3) -> str:
         return "n/a"
     if unit in ("-", ""):
         return f"{value:.{digits}g}"
-    return _pretty(format_quantity(float(value), unit, digits))
+    # a non-breaking space: a number never wraps away from its unit
+    return _pretty(format_quantity(float(value), unit, digits)).replace(" ", "\u00a0")
 
 
 def _num(value, decimals=1) -> str:
@@ -463,12 +464,13 @@ def _ratio_cell(check) -> _Cell:
 def _check_q(value, unit) -> str:
     """A check's figure or rating; a dimensionless one (a fill factor) as a percentage."""
     if unit in ("-", "") and value is not None and np.isfinite(value):
-        return f"{100 * value:.0f} %"
+        return f"{100 * value:.0f}\u00a0%"
     return _q(value, unit)
 
 
 def _check_name(check) -> str:
-    return (f'<span class="check-name">{_e(check.name)}</span>'
+    name = _e(check.name).replace(".", ".<wbr>")  # narrow columns break at the dots
+    return (f'<span class="check-name">{name}</span>'
             f'<span class="what">{_e(check.what)}</span>')
 
 
@@ -511,15 +513,17 @@ def _checks_table(positions) -> str:
         for b in by_name:
             c = b.get(name)
             if c is None:
-                row += [_Cell("does not apply", cls="na"), "", "", "", ""]
+                row += [_Cell("does not apply", cls="na"), "", "", ""]
             else:
                 row += [_verdict(c), _Cell(_e(_check_q(c.value, c.unit)), c.value),
-                        _Cell(_e(_check_q(c.limit, c.unit)), c.limit), _ratio_cell(c),
-                        _Cell(f"[{numbers[c.source]}]", numbers[c.source])]
+                        _Cell(_e(_check_q(c.limit, c.unit)), c.limit), _ratio_cell(c)]
+        notes_here = sorted({numbers[b[name].source] for b in by_name if name in b})
+        row.append(_Cell(", ".join(f"[{n}]" for n in notes_here), notes_here[0]))
         rows.append(row)
-    headers = ["check (what is compared)"] + ["verdict", "worst figure", "rating",
-                                              "ratio [-]", "from [note]"] * len(names)
-    groups = [("", 1)] + [(f"position '{n}'", 5) for n in names]
+    headers = (["check (what is compared)"]
+               + ["verdict", "worst figure", "rating", "ratio [-]"] * len(names)
+               + ["from [note]"])
+    groups = [("", 1)] + [(f"position '{n}'", 4) for n in names] + [("", 1)]
     return _table(headers, rows, cls="data checks", group_row=groups) + notes
 
 
@@ -991,6 +995,9 @@ footer { margin-top: 40px; color: var(--muted); font-size: 12px; border-top: 1px
   table.sortable thead tr:last-child th::after { content: none; }
   .verdict, .fill, .banner { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
   td.source { max-width: none; }
+  table { font-size: 7.5pt; } th, td { padding: 2px 3px; }
+  .what, td.source, .note { font-size: 7pt; } .check-name { font-size: 7.5pt; }
+  .bar { width: 34px; }
 }
 """
 
