@@ -32,6 +32,7 @@ import numpy as np
 import yaml
 from pydantic import Field, ValidationError, field_validator, model_validator
 
+from .yamlfile import DesignError, read_yaml
 from .schema import (
     Capacitance,
     Current,
@@ -540,50 +541,16 @@ def bundled_file(kind: str) -> Path:
 # Reading files
 # --------------------------------------------------------------------------------------------
 
-_Loader = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
-
-
-def _check_duplicate_keys(node, path: str) -> None:
-    """PyYAML lets a repeated key silently win; reject it instead."""
-    if isinstance(node, yaml.MappingNode):
-        seen: dict[str, int] = {}
-        for key_node, value_node in node.value:
-            key = key_node.value
-            if key in seen:
-                raise CatalogueError(
-                    f"{path}:{key_node.start_mark.line + 1}: key {key!r} repeated "
-                    f"(first at line {seen[key] + 1})"
-                )
-            seen[key] = key_node.start_mark.line
-            _check_duplicate_keys(value_node, path)
-    elif isinstance(node, yaml.SequenceNode):
-        for item in node.value:
-            _check_duplicate_keys(item, path)
-
-
 def _read_yaml(path: Path):
     """Return (data, entry line numbers) of a parts file."""
     try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise CatalogueError(f"{path}: cannot read parts file: {exc.strerror or exc}") from None
-    try:
-        loader = _Loader(text)
-        try:
-            node = loader.get_single_node()
-            if node is None:
-                raise CatalogueError(f"{path}: parts file is empty")
-            _check_duplicate_keys(node, str(path))
-            data = loader.construct_document(node)
-        finally:
-            loader.dispose()
-    except yaml.YAMLError as exc:
-        raise CatalogueError(f"{path}: not valid YAML: {exc}") from None
+        data, node = read_yaml(path)
+    except DesignError as exc:
+        raise CatalogueError("; ".join(exc.problems)) from None
     lines: list[int] = []
-    if isinstance(node, yaml.MappingNode):
-        for key_node, value_node in node.value:
-            if key_node.value == "entries" and isinstance(value_node, yaml.SequenceNode):
-                lines = [item.start_mark.line + 1 for item in value_node.value]
+    for key_node, value_node in node.value:
+        if key_node.value == "entries" and isinstance(value_node, yaml.SequenceNode):
+            lines = [item.start_mark.line + 1 for item in value_node.value]
     return data, lines
 
 

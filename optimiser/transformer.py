@@ -43,9 +43,9 @@ from pathlib import Path
 from typing import Any, Literal, Sequence
 
 import numpy as np
-import yaml
 from pydantic import Field, ValidationInfo, field_validator, model_validator
 
+from .yamlfile import read_yaml
 from .schema import Strict, unit_field
 from .units import format_quantity
 
@@ -356,8 +356,7 @@ class TransformerData:
 
 
 def _read_yaml(path: Path) -> Any:
-    with open(path, encoding="utf-8") as handle:
-        return yaml.safe_load(handle)
+    return read_yaml(path)[0]
 
 
 def _wire_tables(wire: WireFile) -> dict:

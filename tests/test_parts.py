@@ -389,7 +389,7 @@ def test_wrong_kind_and_duplicate_keys_are_rejected(tmp_path):
     with pytest.raises(CatalogueError, match="holds kind 'valve', but 'diode' parts were asked for"):
         load_catalogue("diode", extra_files=[wrong])
     dup = _write(tmp_path, "dup.yaml", "kind: choke\nentries:\n  - name: A\n    name: B\n")
-    with pytest.raises(CatalogueError, match=r"dup\.yaml:4: key 'name' repeated"):
+    with pytest.raises(CatalogueError, match=r"dup\.yaml:4:5: entries\.0\.name: duplicate key"):
         load_catalogue("choke", extra_files=[dup])
 
 

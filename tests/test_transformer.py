@@ -270,9 +270,22 @@ def test_vector_call_equals_scalar_calls():
         for f in dataclasses.fields(a):
             if f.name in ("windings", "build"):
                 continue
-            assert getattr(a, f.name) == pytest.approx(getattr(s, f.name), rel=1e-12), f.name
+            _assert_same(getattr(a, f.name), getattr(s, f.name), f.name)
         for wa, ws in zip(a.windings, s.windings):
-            assert dataclasses.astuple(wa) == pytest.approx(dataclasses.astuple(ws), rel=1e-12)
+            for f in dataclasses.fields(wa):
+                _assert_same(getattr(wa, f.name), getattr(ws, f.name), f.name)
+
+
+def _assert_same(got, want, name):
+    """Numbers to 1e-12 relative; text, flags and other values exactly."""
+    if isinstance(want, (tuple, list)):
+        assert len(got) == len(want), name
+        for g, w in zip(got, want):
+            _assert_same(g, w, name)
+    elif isinstance(want, (bool, np.bool_, str)) or want is None:
+        assert got == want, name
+    else:
+        assert got == pytest.approx(want, rel=1e-12), name
 
 
 def test_infeasible_design_is_flagged_not_raised():
