@@ -315,7 +315,7 @@ def _waveform_plot(design, a, key, width) -> str:
             notes.append(f"{label} {_q(c.limit, 'A')} (above this scale)")
     if notes:
         # mid-cycle, between the two elements' pulses, the plot is empty
-        bottom.text(0.5, 0.62, "\n".join(notes), transform=bottom.transAxes, ha="center",
+        bottom.text(0.5, 0.5, "\n".join(notes), transform=bottom.transAxes, ha="center",
                     va="center", fontsize=8, color=RED)
     bottom.set_ylim(-0.04 * top_of_scale, top_of_scale)
     bottom.set_ylabel("current per element [A]")
@@ -835,9 +835,12 @@ def _waveform_caption(d, a):
     c = _check(a, "valve.peak_plate_current")
     worst = (f" At high mains the peak plate current reaches {_q(c.value, 'A')}, "
              f"{100 * c.ratio:.0f} % of its rating." if c is not None else "")
+    silicon = ("" if _check(a, "diode.surge") is None else
+               " The diode data give no repetitive peak rating; the non-repetitive surge rating "
+               "(I_FSM) is shown for scale, and the switch-on surge is checked against it.")
     return ("One mains cycle at nominal mains and full power: the winding's open-circuit EMF, "
             "the reservoir voltage and the current in each rectifying element, with the rating "
-            f"the data gives.{worst}")
+            f"the data gives.{worst}{silicon}")
 
 
 def _sag_caption(d, a):
@@ -1211,23 +1214,32 @@ def _recommended(frame, ids, root):
 
 
 def _summary_recommendation(root, ids):
-    """(row, the paragraph's text) of the design summary.md recommends, or None."""
+    """(row, why) of the design summary.md recommends: a heading with "recommend" and the
+    paragraph under it, else a plain paragraph with "recommend" that names a design."""
     summary = root / "summary.md"
     if not summary.is_file():
         return None
-    paragraphs = re.split(r"\n\s*\n", summary.read_text(encoding="utf-8"))
+    paragraphs = [p.strip() for p in re.split(r"\n\s*\n", summary.read_text(encoding="utf-8"))]
+
+    def named(text):
+        return [i for i, d in enumerate(ids)
+                if re.search(rf"(?<![\w-]){re.escape(d)}(?![\w-])", text)]
+
+    def plain(text):
+        return re.sub(r"\s+", " ", re.sub(r"[#*_`>]", "", text)).strip()
+
+    def is_prose(text):
+        return bool(text) and not text.startswith(("#", "|", "```", "-", "*"))
+
     for k, para in enumerate(paragraphs):
-        if "recommend" not in para.lower():
-            continue
-        # a heading alone: the paragraph under it says which and why
-        text = para
-        if para.lstrip().startswith("#") and k + 1 < len(paragraphs):
-            text = paragraphs[k + 1]
-        named = [i for i, d in enumerate(ids)
-                 if re.search(rf"(?<![\w-]){re.escape(d)}(?![\w-])", para + "\n" + text)]
-        if named:
-            plain = re.sub(r"[#*_`>|]", "", text)
-            return named[0], re.sub(r"\s+", " ", plain).strip()
+        if para.startswith("#") and "recommend" in para.lower():
+            below = paragraphs[k + 1] if k + 1 < len(paragraphs) else ""
+            rows = named(para) or named(below)
+            if rows:
+                return rows[0], plain(below) if is_prose(below) else None
+    for para in paragraphs:
+        if is_prose(para) and "recommend" in para.lower() and named(para):
+            return named(para)[0], plain(para)
     return None
 
 
@@ -1306,12 +1318,13 @@ def _why(front: Front) -> str:
     facts = (f"It costs {cost[r]:.1f} cost units (cheapest on the front {np.nanmin(cost):.1f}), "
              f"regulates to {100 * reg[r]:.2f} % (best {100 * np.nanmin(reg):.2f} %) and loads "
              f"its rectifier to a stress of {stress[r]:.2f} (least {np.nanmin(stress):.2f}).")
-    told = (f" Why, in the run's words: \u201c{_e(front.reason)}\u201d" if front.reason
-            else "")
+    if front.reason:
+        why = f" Why, in the run's words: \u201c{_e(front.reason)}\u201d"
+    else:
+        why = (" The search recommends a knee of the front: the design where giving up more "
+               "of one objective buys little in the others.")
     return (f"<p><strong>Recommended: <a href=\"#{_e(_anchor(front.ids[r]))}\">"
-            f"{_e(front.ids[r])}</a>.</strong> The run recommends a knee of the front: the "
-            "design where giving up more of one objective buys little in the others. "
-            f"{_e(facts)}{told}</p>")
+            f"{_e(front.ids[r])}</a>.</strong> {_e(facts)}{why}</p>")
 
 
 def _anchor(design_id) -> str:
@@ -1421,8 +1434,9 @@ def results_report(result_dir, *, link_base=None) -> str:
         toc.append((anchors[r], f"Design {front.ids[r]}" + (f" ({', '.join(roles)})"
                                                            if roles else "")))
     title = f"Railwright run: {root.resolve().name}"
-    lede = (f"{len(front.ids)} Pareto designs of cost, regulation and rectifier stress, and "
-            "what each looks like on the bench.")
+    count = len(front.ids)
+    lede = (f"{count} Pareto design{'s' if count != 1 else ''} of cost, regulation and "
+            "rectifier stress, and what each looks like on the bench.")
     return _page(title, lede, toc, "\n".join(body))
 
 
@@ -1442,10 +1456,16 @@ def write_report(html_text: str, path) -> Path:
     Path
         Where it was written.
     """
+    import os
+
     from .cli import write_text_atomic
 
     target = Path(path)
     write_text_atomic(target, html_text)
+    # the temporary file was private (0600); a report is for sharing, as any new file would be
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(target, 0o666 & ~umask)
     return target
 
 

@@ -217,6 +217,8 @@ def test_every_front_point_links_to_its_design(results_html):
 
 def test_recommended_design_is_marked_and_explained(results_html):
     assert "Recommended: " in results_html and 'href="#design-d001"' in results_html
+    # why, in the run's own words (from summary.md)
+    assert "\u201cd001: the knee of the front.\u201d" in results_html
     section = results_html[results_html.index('id="design-d001"'):]
     assert section[:600].count('class="badge">recommended<') == 1
     # the extremes are named in the table of every design
