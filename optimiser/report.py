@@ -302,7 +302,7 @@ def _waveform_plot(design, a, key, width) -> str:
     top_of_scale = max(peak, 1e-6) * 1.35
     notes = []
     for check, label in (("valve.peak_plate_current", "rated peak plate current"),
-                         ("diode.surge", "I_FSM, non-repetitive surge rating")):
+                         ("diode.surge", "I_FSM, non-repetitive surge")):
         c = _check(a, check)
         if c is None or not np.isfinite(c.limit):
             continue
@@ -312,7 +312,7 @@ def _waveform_plot(design, a, key, width) -> str:
                         ha="right", va="bottom")
             top_of_scale = max(top_of_scale, c.limit * 1.15)
         else:
-            notes.append(f"{label} {_q(c.limit, 'A')} (above this scale)")
+            notes.append(f"{label}\n{_q(c.limit, 'A')}, above this scale")
     if notes:
         # mid-cycle, between the two elements' pulses, the plot is empty
         bottom.text(0.5, 0.5, "\n".join(notes), transform=bottom.transAxes, ha="center",
@@ -322,7 +322,8 @@ def _waveform_plot(design, a, key, width) -> str:
     bottom.set_xlabel("time over one mains cycle [ms]")
     bottom.set_xlim(t[0], t[-1])
     bottom.set_title("Rectifier current per element")
-    bottom.legend(loc="upper left", ncol=2)
+    # beside the title, clear of the rating line
+    bottom.legend(loc="lower right", bbox_to_anchor=(1.0, 1.0), ncol=2, borderaxespad=0.1)
     return _svg(fig, key, "waveforms over one mains cycle")
 
 
