@@ -800,8 +800,8 @@ def _glance(positions, design, extra=None) -> str:
                                    "unknown (a part has no price; see the parts list)"))]
     for name, _, a in positions:
         where = f" ({name})" if name else ""
-        bplus = ", ".join(f"{n['name']} {n['idle_voltage']:.0f}\u2192{n['full_power_voltage']:.0f} V"
-                          for n in a.nodes)
+        bplus = ", ".join(f"{n['name']} {n['idle_voltage']:.0f}\u2192"
+                          f"{n['full_power_voltage']:.0f} V" for n in a.nodes)
         items.append((f"B+ idle \u2192 full power{where}", _e(bplus)))
         first = a.nodes[0]
         items.append((f"reservoir{where}", _e(
@@ -936,8 +936,8 @@ section.design, section.front { margin-top: 36px; }
 dl.glance { display: grid; grid-template-columns: max-content 1fr; gap: 3px 14px;
   margin: 10px 0; padding: 10px 14px; border-left: 4px solid var(--accent); background: #f4f7fb; }
 dl.glance dt { font-weight: 600; } dl.glance dd { margin: 0; }
-.badge { display: inline-block; margin-left: 10px; padding: 1px 8px; border: 2px solid var(--accent);
-  color: var(--accent); font-size: 13px; vertical-align: middle; }
+.badge { display: inline-block; margin-left: 10px; padding: 1px 8px;
+  border: 2px solid var(--accent); color: var(--accent); font-size: 13px; vertical-align: middle; }
 figure.plot { margin: 8px 0 14px; }
 figure.plot svg { width: 100%; height: auto; display: block; }
 svg.plot * { stroke-linejoin: round; stroke-linecap: butt; }
@@ -1384,7 +1384,7 @@ def results_report(result_dir, *, link_base=None) -> str:
         :data:`FULL_SECTIONS`).
     """
     from .assessment import assess
-    from .design import load_design
+    from .design import DesignError, load_design
 
     root = Path(result_dir)
     front = read_front(root)
@@ -1421,10 +1421,19 @@ def results_report(result_dir, *, link_base=None) -> str:
     toc = [("front", "The Pareto front")]
     for r in order:
         path = front.design_files[r]
-        design = load_design(path)
-        a = assess(design, detail=True)
         roles = (["recommended"] if r == front.recommended else []) + extremes.get(r, [])
         badge = "".join(f'<span class="badge">{_e(x)}</span>' for x in roles)
+        try:
+            design = load_design(path)
+        except DesignError as exc:
+            # one unreadable design file does not cost the builder the rest of the run
+            body.append(f'<section class="design" id="{_e(anchors[r])}"><h2>Design '
+                        f"{_e(front.ids[r])}{badge}</h2><p class=\"banner\">This design file "
+                        "could not be read:</p><ul>"
+                        + "".join(f"<li>{_e(p)}</li>" for p in exc.problems) + "</ul></section>")
+            toc.append((anchors[r], f"Design {front.ids[r]} (unreadable)"))
+            continue
+        a = assess(design, detail=True)
         extra = [("objectives", f"cost {front.objective('cost')[r]:.2f} cost units, regulation "
                                 f"{100 * front.objective('regulation')[r]:.2f} %, rectifier "
                                 f"stress {front.objective('rectifier_stress')[r]:.2f}")]

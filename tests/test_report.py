@@ -251,6 +251,16 @@ def test_read_front_errors_name_what_is_missing(results_dir, tmp_path):
         report.read_front(bad)
 
 
+def test_an_unreadable_design_file_is_reported_not_fatal(results_dir, tmp_path):
+    broken = tmp_path / "run"
+    shutil.copytree(results_dir, broken)
+    for path in (broken / "designs").glob("*.yaml"):
+        path.write_text("mains: {voltage: 230 V}\n", encoding="utf-8")
+    page = report.results_report(broken)
+    assert page.count("could not be read") == len(IDS)
+    assert "front-plot" in _Page(page).ids
+
+
 def test_a_large_front_gets_sections_for_the_recommended_and_the_extremes(results_dir,
                                                                           monkeypatch):
     monkeypatch.setattr(report, "FULL_SECTIONS", 1)
@@ -325,7 +335,8 @@ HOOK = """<script>
 window.__rw = {errors: []};
 window.addEventListener('error', function (e) { __rw.errors.push(String(e.message)); });
 (function () { var ce = console.error; console.error = function () {
-  __rw.errors.push(Array.prototype.join.call(arguments, ' ')); ce.apply(console, arguments); }; })();
+  __rw.errors.push(Array.prototype.join.call(arguments, ' '));
+  ce.apply(console, arguments); }; })();
 window.addEventListener('load', function () {
   var b = document.body, sorted = '';
   try {
