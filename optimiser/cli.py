@@ -49,22 +49,25 @@ def _parser() -> argparse.ArgumentParser:
 def _report(args) -> int:
     from pathlib import Path
 
-    from .report import ResultsError, design_report, write_report, write_results_report
+    from .report import ResultsError, design_report, results_report, write_report
 
     source = Path(args.path)
     try:
         if source.is_dir():
-            path = write_results_report(source, args.out)
+            out = Path(args.out) if args.out else source / "report.html"
+            page = results_report(source, link_base=out.parent)
         else:
             out = Path(args.out) if args.out else Path.cwd() / f"{source.stem}.report.html"
-            path = write_report(design_report(source), out)
+            page = design_report(source)
     except ResultsError as exc:
         print(f"error: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
+    try:
+        write_report(page, out)
     except OSError as exc:
-        print(f"error: {exc.filename or args.path}: {exc.strerror or exc}", file=sys.stderr)
+        print(f"error: cannot write {out}: {exc.strerror or exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
-    print(f"report written to {path}")
+    print(f"report written to {out}")
     return 0
 
 
