@@ -189,6 +189,46 @@ def _march_kernel(phi, ga, gb, kappa, c_row, beta, d_e, load_feed, peak, sines, 
                 q += c_row[b, r] * y[r]
             i, d, sens, z = path_step(q, beta[b], si[b], vv[b], isat[b], nem[b], rs[b], perv[b],
                                       z)
+            if i <= 0.0 and d_e[b] == 0.0:
+                # Blocked inductive path (its current is a state): hold the drive constant over
+                # the step at the value that keeps the current at zero. A first-order hold from
+                # the last conducting value rings (the trapezoidal rule's undamped mode) into
+                # false pulses. A resistive path has no such mode and keeps the first-order hold.
+                den = d_e[b]
+                acc0 = load_feed[b]
+                for r in range(n):
+                    den += c_row[b, r] * (ga[b, r] + gb[b, r])
+                    acc = kappa[b, r]
+                    for c in range(n):
+                        acc += phi[b, r, c] * x[c]
+                    y[r] = acc
+                    acc0 += c_row[b, r] * acc
+                e_hold = -acc0 / den
+                for r in range(n):
+                    x[r] = y[r] + (ga[b, r] + gb[b, r]) * e_hold
+                d = src - e_hold
+                if want_jac:
+                    for r in range(n):
+                        for c in range(n + 1):
+                            acc = 0.0
+                            for m in range(n):
+                                acc += phi[b, r, m] * jx[m, c]
+                            dy[r, c] = acc
+                    for c in range(n + 1):
+                        acc = 0.0
+                        for r in range(n):
+                            acc += c_row[b, r] * dy[r, c]
+                        je[c] = -acc / den
+                    for r in range(n):
+                        for c in range(n + 1):
+                            jx[r, c] = dy[r, c] + (ga[b, r] + gb[b, r]) * je[c]
+                e = src - d
+                for r in range(n):
+                    xs[b, k, r] = x[r]
+                es[b, k] = e
+                iss[b, k] = 0.0
+                ds[b, k] = d
+                continue
             for r in range(n):
                 x[r] = y[r] - gb[b, r] * d
             if want_jac:
