@@ -317,16 +317,8 @@ def test_cli_report_and_evaluate_report(tmp_path, monkeypatch, capsys):
 # --------------------------------------------------------------------------------------------
 # in a real browser
 
-def require_tool(name):
-    """The tool's path; skip where it is absent, or fail when RAILWRIGHT_REQUIRE_TOOLS=1."""
-    path = shutil.which(name) or (f"/usr/bin/{name}" if os.access(f"/usr/bin/{name}", os.X_OK)
-                                  else None)
-    if path:
-        return path
-    reason = f"{name} is not installed (Debian package '{name}'); browser test skipped"
-    if os.environ.get("RAILWRIGHT_REQUIRE_TOOLS") == "1":
-        pytest.fail(reason + " but RAILWRIGHT_REQUIRE_TOOLS=1")
-    pytest.skip(reason)
+CHROMIUM = {"executables": ("chromium", "chromium-browser"),
+            "install": "install Debian package chromium"}
 
 
 # Injected into a copy of the page only: records script errors, console errors, every
@@ -364,10 +356,9 @@ def artefact_dir(tmp_path_factory):
     return tmp_path_factory.mktemp("artefacts")
 
 
-def render(html_text, work, screenshot):
+def render(chromium, html_text, work, screenshot):
     """Open a copy of the page with the hook in headless Chromium: the DOM after load, the
     page's console lines, and a screenshot."""
-    chromium = require_tool("chromium")
     page = work / "page.html"
     page.write_text(html_text.replace("<head>", "<head>\n" + HOOK, 1), encoding="utf-8")
     run = subprocess.run(
@@ -386,9 +377,13 @@ def body_attr(page, name):
     return next(a for tag, a in page.attrs if tag == "body")[name]
 
 
-def test_results_page_in_a_browser(results_dir, results_html, tmp_path, tmp_path_factory):
+# the shared mechanism of tests/conftest.py: skip without Chromium (before the page is built),
+# fail under RAILWRIGHT_REQUIRE_TOOLS=1
+@pytest.mark.requires_tool("chromium", **CHROMIUM)
+def test_results_page_in_a_browser(results_dir, results_html, tmp_path, tmp_path_factory, tool):
+    chromium = tool("chromium", **CHROMIUM)
     shot = artefact_dir(tmp_path_factory) / "report-results.png"
-    page, dom, console = render(results_html, tmp_path, shot)
+    page, dom, console = render(chromium, results_html, tmp_path, shot)
     assert console == [], console
     assert json.loads(body_attr(page, "data-test-errors")) == []
     # nothing fetched: no fonts, scripts, styles or images from anywhere
