@@ -1466,16 +1466,10 @@ def write_report(html_text: str, path) -> Path:
     Path
         Where it was written.
     """
-    import os
-
     from .cli import write_text_atomic
 
     target = Path(path)
     write_text_atomic(target, html_text)
-    # the temporary file was private (0600); a report is for sharing, as any new file would be
-    umask = os.umask(0)
-    os.umask(umask)
-    os.chmod(target, 0o666 & ~umask)
     return target
 
 

@@ -317,8 +317,6 @@ def test_cli_report_and_evaluate_report(tmp_path, monkeypatch, capsys):
 # --------------------------------------------------------------------------------------------
 # in a real browser
 
-CHROMIUM = {"executables": ("chromium", "chromium-browser"),
-            "install": "install Debian package chromium"}
 
 
 # Injected into a copy of the page only: records script errors, console errors, every
@@ -379,9 +377,9 @@ def body_attr(page, name):
 
 # the shared mechanism of tests/conftest.py: skip without Chromium (before the page is built),
 # fail under RAILWRIGHT_REQUIRE_TOOLS=1
-@pytest.mark.requires_tool("chromium", **CHROMIUM)
+@pytest.mark.chromium
 def test_results_page_in_a_browser(results_dir, results_html, tmp_path, tmp_path_factory, tool):
-    chromium = tool("chromium", **CHROMIUM)
+    chromium = tool("chromium")
     shot = artefact_dir(tmp_path_factory) / "report-results.png"
     page, dom, console = render(chromium, results_html, tmp_path, shot)
     assert console == [], console
