@@ -201,7 +201,7 @@ def _provenance(items, what):
             for x in items]
 
 
-def _assess_group(designs, detail):
+def _assess_group(designs, detail, dynamics=True):
     batches = _corner_batches(designs)
     solved = {}
     for name, batch in batches.items():
@@ -216,11 +216,17 @@ def _assess_group(designs, detail):
     # ---- sag: idle -> full -> idle at nominal mains
     b_idle, m_idle, w_idle, _ = solved["nominal_idle"]
     b_full = solved["nominal_full"][0]
-    hold = max(d.conditions.sag_hold for d in designs)
-    release = max(d.conditions.sag_release for d in designs)
-    sag = transients.sag_step(m_idle, b_idle.elements, b_idle.peak, freq,
-                              b_idle.values.load_current, b_full.values.load_current, w_idle,
-                              hold, release)
+    if dynamics or detail:
+        hold = max(d.conditions.sag_hold for d in designs)
+        release = max(d.conditions.sag_release for d in designs)
+        sag = transients.sag_step(m_idle, b_idle.elements, b_idle.peak, freq,
+                                  b_idle.values.load_current, b_full.values.load_current, w_idle,
+                                  hold, release)
+    else:
+        static = f["nominal_idle"]["dc_voltage"] - f["nominal_full"]["dc_voltage"]
+        none = np.full_like(static, np.nan)
+        sag = transients.SagResponse(time=np.empty(0), voltage=np.empty((count, 0, n_nodes)),
+                                     depth=static, attack_time=none, recovery_time=none)
 
     # ---- switch-on at high mains with the valves cold
     b_none, m_none, w_none, f_none = solved["high_none"]
@@ -526,7 +532,7 @@ def _detail_curves(designs, sag, rectifier_start):
     return out
 
 
-def assess_many(designs, *, detail=False) -> AssessmentTable:
+def assess_many(designs, *, detail=False, dynamics=True) -> AssessmentTable:
     """Assess many designs; designs of one ladder shape are solved together.
 
     Parameters
@@ -534,6 +540,10 @@ def assess_many(designs, *, detail=False) -> AssessmentTable:
     designs : list of path, dict or Design
     detail : bool
         Also keep the arrays for plots (sag response, switch-on trajectory).
+    dynamics : bool
+        Simulate the sag step for attack and recovery times. Without it the sag depth is the
+        static drop from idle to full power and the times are None (a search that asks only
+        for the amount of sag saves the transient).
     """
     parsed = [load_design(d) for d in designs]
     # a switchable pair is assessed as one design per switch position
@@ -544,7 +554,7 @@ def assess_many(designs, *, detail=False) -> AssessmentTable:
             owner.append((i, name))
     flat_results = [None] * len(flat)
     for _, members in _groups(flat).items():
-        group = _assess_group([flat[i] for i in members], detail)
+        group = _assess_group([flat[i] for i in members], detail, dynamics)
         for i, a in zip(members, group):
             flat_results[i] = a
     results = [None] * len(parsed)

@@ -29,12 +29,47 @@ def _parser() -> argparse.ArgumentParser:
     ev = sub.add_parser("evaluate", help="steady state and checks of one concrete supply")
     ev.add_argument("design", help="design file (YAML)")
     ev.add_argument("--json", action="store_true", help="print one JSON object instead of tables")
+    ev.add_argument("--report", metavar="FILE",
+                    help="also write a self-contained HTML report of the design to FILE")
     tr = sub.add_parser("transformer", help="the order sheet of a design's physical transformer")
     tr.add_argument("design", help="design file (YAML) whose transformer has a build block")
     tr.add_argument("--json", action="store_true", help="print the order sheet as JSON")
     tr.add_argument("--markdown", metavar="FILE", help="also write the order sheet as Markdown")
+    rp = sub.add_parser("report", help="one self-contained HTML page for a search run or a "
+                        "design")
+    rp.add_argument("path", help="a results folder written by railwright optimise, or a design "
+                    "file (YAML)")
+    rp.add_argument("--out", metavar="FILE",
+                    help="where to write the page (default: report.html inside the results "
+                         "folder; for a design file, <design stem>.report.html in the current "
+                         "folder)")
     _add_optimise_parser(sub)
     return p
+
+
+def _report(args) -> int:
+    from pathlib import Path
+
+    from .report import ResultsError, design_report, results_report, write_report
+
+    source = Path(args.path)
+    try:
+        if source.is_dir():
+            out = Path(args.out) if args.out else source / "report.html"
+            page = results_report(source, link_base=out.parent)
+        else:
+            out = Path(args.out) if args.out else Path.cwd() / f"{source.stem}.report.html"
+            page = design_report(source)
+    except ResultsError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    try:
+        write_report(page, out)
+    except OSError as exc:
+        print(f"error: cannot write {out}: {exc.strerror or exc}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    print(f"report written to {out}")
+    return 0
 
 
 def _transformer(args) -> int:
@@ -65,6 +100,10 @@ def write_text_atomic(path, text):
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as fh:
             fh.write(text)
+        # mkstemp makes the file private (0600); give it the mode any new file would get
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
         os.replace(tmp, target)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
@@ -77,11 +116,16 @@ def _evaluate(args) -> int:
     result = assess(args.design, detail=False)
     if args.json:
         print(json.dumps(json_ready(result.to_dict()), indent=2, allow_nan=False))
-        return 0
-    if hasattr(result, "positions"):
+    elif hasattr(result, "positions"):
         print(render_pair(result))
     else:
         print(render_assessment(result))
+    if args.report:
+        from .report import design_report, write_report
+
+        path = write_report(design_report(args.design), args.report)
+        # stderr, so that --json output stays one JSON object
+        print(f"report written to {path}", file=sys.stderr)
     return 0
 
 
@@ -209,7 +253,7 @@ def render_supply(result, caution=True) -> str:
     return "\n".join(lines)
 
 
-COMMANDS = {"evaluate": _evaluate, "transformer": _transformer}
+COMMANDS = {"evaluate": _evaluate, "transformer": _transformer, "report": _report}
 
 
 # ---- railwright optimise (the co-design search)

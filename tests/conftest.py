@@ -29,6 +29,8 @@ class Tool:
 # Programs the test suite knows. A marker with the same name as a key marks a test that needs it.
 TOOLS: dict[str, Tool] = {
     "ngspice": Tool(executables=("ngspice",), install="install Debian package ngspice"),
+    "chromium": Tool(executables=("chromium", "chromium-browser"),
+                     install="install Debian package chromium"),
 }
 
 

@@ -1087,3 +1087,62 @@ def main(argv=None) -> int:
 
 if __name__ == "__main__":
     sys.exit(main())
+
+
+# ----------------------------------------------------------------------------------------------
+# Transients (switch-on, load steps): one ngspice run, no steady-state loop
+
+
+def transient(design, *, duration: float, phase: float = 0.0, empty: bool = False,
+              load_step: tuple | None = None, step: float | None = None,
+              temperature: float = 27.0, loads: str = "full", timeout: float = 300.0) -> dict:
+    """One ngspice transient of a design, every sample kept.
+
+    Parameters
+    ----------
+    design : dict or path
+    duration : float
+        Simulated time. [s]
+    phase : float
+        Phase of the mains sine at t = 0 (90 = switched on at the crest). [degrees]
+    empty : bool
+        Start with every capacitor discharged and every inductor current zero (switch-on);
+        otherwise from the harness's estimate of the steady state.
+    load_step : (t_on, t_off, scale) or None
+        Multiply every constant-current load by ``scale`` from t_on to t_off (0 ns edges are
+        given 1 us). [s], [s], [-]
+    step : float, optional
+        Maximum time step; T/2000 by default. [s]
+    loads : {"full", "idle", "none"}
+        Which load currents the circuit starts with ("none": no constant-current loads).
+
+    Returns
+    -------
+    dict of ndarray
+        ngspice's vectors by name (``time``, ``v(n1)``, ``i(ve1)``, ...).
+    """
+    d = _parse(design, "full" if loads == "none" else loads)
+    step = d.period / _STEPS_PER_CYCLE if step is None else step
+    state = {} if empty else _estimate_state(d, temperature)
+    numerics = _Numerics(step=step, reltol=1e-6, temperature=temperature)
+    text = _netlist(d, state, 1, numerics, "data.txt")
+    text = re.sub(r"SIN\(0 (\S+) (\S+)\)", lambda m: f"SIN(0 {m.group(1)} {m.group(2)} 0 0 "
+                  f"{_g(phase)})", text)
+    text = re.sub(r"^(tran \S+) \S+ \S+ (\S+ uic)$", lambda m: f"{m.group(1)} {_g(duration)} 0 "
+                  f"{m.group(2)}", text, flags=re.M)
+
+    def current_source(m):
+        name, node, value = m.group(1), m.group(2), float(m.group(3))
+        if loads == "none":
+            value = 0.0
+        if load_step is None:
+            return f"{name} {node} 0 DC {_g(value)}"
+        t_on, t_off, scale = load_step
+        edge = 1e-6
+        high = value * scale
+        return (f"{name} {node} 0 PWL(0 {_g(value)} {_g(t_on)} {_g(value)} {_g(t_on + edge)} "
+                f"{_g(high)} {_g(t_off)} {_g(high)} {_g(t_off + edge)} {_g(value)})")
+
+    text = re.sub(r"^(IL\d+) (\S+) 0 DC (\S+)$", current_source, text, flags=re.M)
+    with tempfile.TemporaryDirectory(prefix="railwright-spice-") as tmp:
+        return _run(text, "data.txt", Path(tmp), timeout)

@@ -195,7 +195,7 @@ def test_missing_tool_fails_when_tools_are_required(monkeypatch):
     monkeypatch.setattr("shutil.which", lambda name: None)
     with pytest.raises(pytest.fail.Exception, match="ngspice not found on PATH"):
         require_tool("ngspice")
-    with pytest.raises(pytest.fail.Exception, match="chromium not found on PATH; install chromium"):
+    with pytest.raises(pytest.fail.Exception, match="chromium not found on PATH; install Debian package chromium"):
         require_tool("chromium", executables=("chromium", "chromium-browser"))
 
 
