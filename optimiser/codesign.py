@@ -539,7 +539,7 @@ class CoDesign:
                     pick = [i for i, o in enumerate(opts) if o.kind == kind] or [0]
                     x[5 + 2 * n + k - 1] = pick[0]
                 probes.append(x)
-        table = assess_many(self.designs(self.decode(np.array(probes))))
+        table = assess_many(self.designs(self.decode(np.array(probes))), dynamics=False)
         return tuple(table.ratios.columns)
 
     def _constraint_info(self):
@@ -589,6 +589,12 @@ class CoDesign:
 
     # ---------------------------------------------------------------- evaluation
 
+    @property
+    def needs_sag_dynamics(self) -> bool:
+        """Whether the spec sets attack or recovery windows (only then is the sag step run)."""
+        sag = self.spec.sag
+        return sag is not None and (sag.attack is not None or sag.recovery is not None)
+
     def evaluate(self, X):
         """Objectives and constraints of a population: (F (B, 3), G (B, M))."""
         scored = self.score(self.designs(self.decode(X)))
@@ -598,7 +604,7 @@ class CoDesign:
         """Assess, price and score designs (built by :meth:`designs`, or read from files)."""
         s = self.spec
         count = len(designs)
-        table = assess_many(designs)
+        table = assess_many(designs, dynamics=self.needs_sag_dynamics)
         fr = table.frame
 
         def columns(name):
