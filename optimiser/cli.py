@@ -15,6 +15,8 @@ from .design import DesignError
 from .units import format_quantity
 
 EXIT_BAD_INPUT = 2
+#: ``optimise`` found no design that meets the spec
+EXIT_NOTHING_FOUND = 1
 
 CAUTION = ("CAUTION: valve amplifier supplies carry lethal voltages and their capacitors hold "
            "charge after switch-off. Fit bleeders, fuse and earth the chassis, and follow local "
@@ -26,6 +28,17 @@ def _parser() -> argparse.ArgumentParser:
         prog="railwright",
         description="Co-design a valve amplifier's power transformer and HV supply.")
     sub = p.add_subparsers(dest="command", required=True)
+    op = sub.add_parser("optimise", help="search a spec for the Pareto front of cost, "
+                        "regulation and rectifier stress")
+    op.add_argument("spec", help="spec file (YAML)")
+    op.add_argument("--out", metavar="DIR", help="results folder (default: results/<spec name>)")
+    op.add_argument("--seed", type=int, help="random seed (default: the spec's)")
+    op.add_argument("--generations", type=int, help="generations (default: the spec's)")
+    op.add_argument("--population", type=int, help="designs per generation (default: the spec's)")
+    op.add_argument("--workers", type=int, help="worker processes (default: the spec's)")
+    op.add_argument("--quiet", action="store_true", help="no progress bar")
+    op.add_argument("--report", action="store_true",
+                    help="also write report.html, one self-contained page, into the results folder")
     ev = sub.add_parser("evaluate", help="steady state and checks of one concrete supply")
     ev.add_argument("design", help="design file (YAML)")
     ev.add_argument("--json", action="store_true", help="print one JSON object instead of tables")
@@ -43,7 +56,6 @@ def _parser() -> argparse.ArgumentParser:
                     help="where to write the page (default: report.html inside the results "
                          "folder; for a design file, <design stem>.report.html in the current "
                          "folder)")
-    _add_optimise_parser(sub)
     return p
 
 
@@ -253,26 +265,6 @@ def render_supply(result, caution=True) -> str:
     return "\n".join(lines)
 
 
-COMMANDS = {"evaluate": _evaluate, "transformer": _transformer, "report": _report}
-
-
-# ---- railwright optimise (the co-design search)
-
-EXIT_NOTHING_FOUND = 1
-
-
-def _add_optimise_parser(sub):
-    op = sub.add_parser("optimise", help="search a spec for the Pareto front of cost, "
-                        "regulation and rectifier stress")
-    op.add_argument("spec", help="spec file (YAML)")
-    op.add_argument("--out", metavar="DIR", help="results folder (default: results/<spec name>)")
-    op.add_argument("--seed", type=int, help="random seed (default: the spec's)")
-    op.add_argument("--generations", type=int, help="generations (default: the spec's)")
-    op.add_argument("--population", type=int, help="designs per generation (default: the spec's)")
-    op.add_argument("--workers", type=int, help="worker processes (default: the spec's)")
-    op.add_argument("--quiet", action="store_true", help="no progress bar")
-
-
 def _optimise(args) -> int:
     import time
     from pathlib import Path
@@ -299,16 +291,24 @@ def _optimise(args) -> int:
     out = Path(args.out) if args.out else Path("results") / name
     elapsed = time.perf_counter() - start
     write_results(result, out, spec_text, elapsed=elapsed)
+    report = None
+    if args.report:
+        from .report import write_results_report
+
+        report = write_results_report(out)
     knee = result.scored.frame.iloc[result.knee]
     print(f"{len(result.front)} Pareto designs in {elapsed:.1f} s, written to {out}/")
     print(f"recommended: {knee['rectifier']}, cost {knee['cost']:.1f}, regulation "
           f"{100 * knee['regulation']:.2f} %, rectifier stress {knee['rectifier_stress']:.3f} "
           f"(see {out}/summary.md)")
+    if report is not None:
+        print(f"report written to {report}")
     print(CAUTION)
     return 0
 
 
-COMMANDS["optimise"] = _optimise
+COMMANDS = {"optimise": _optimise, "evaluate": _evaluate, "transformer": _transformer,
+            "report": _report}
 
 
 def main(argv=None) -> int:
