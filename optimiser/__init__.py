@@ -2,5 +2,15 @@
 
 from .evaluation import evaluate, evaluate_many
 
-__all__ = ["evaluate", "evaluate_many"]
+
+def optimise(spec, **settings):
+    """Run the co-design search on a spec (path, dict or Spec); see
+    :func:`optimiser.codesign.optimise`."""
+    from .codesign import optimise as _optimise
+    from .spec import load_spec
+
+    return _optimise(load_spec(spec), **settings)
+
+
+__all__ = ["evaluate", "evaluate_many", "optimise"]
 __version__ = "0.1.0"
