@@ -27,6 +27,7 @@ from .schema import (
     TemperatureRise,
     Time,
     Voltage,
+    unique_names,
 )
 
 __all__ = [
@@ -233,12 +234,7 @@ class Design(Strict):
     @field_validator("nodes")
     @classmethod
     def _unique_names(cls, nodes):
-        seen = set()
-        for node in nodes:
-            if node.name in seen:
-                raise ValueError(f"node name '{node.name}' is used twice")
-            seen.add(node.name)
-        return nodes
+        return unique_names(nodes)
 
     @model_validator(mode="after")
     def _consistent(self):

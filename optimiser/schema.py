@@ -33,6 +33,7 @@ __all__ = [
     "SpecificLoss",
     "PricePerMass",
     "unit_field",
+    "unique_names",
 ]
 
 
@@ -40,6 +41,16 @@ class Strict(BaseModel):
     """Base for every file block: unknown keys are errors, values are immutable."""
 
     model_config = ConfigDict(extra="forbid", frozen=True)
+
+
+def unique_names(items, what="node"):
+    """Raise ValueError if two items share a ``name``; return the items (a field validator)."""
+    seen = set()
+    for item in items:
+        if item.name in seen:
+            raise ValueError(f"{what} name '{item.name}' is used twice")
+        seen.add(item.name)
+    return items
 
 
 def unit_field(dimension: str, **kwargs):

@@ -64,6 +64,7 @@ from .schema import (
     Temperature,
     Time,
     Voltage,
+    unique_names,
 )
 
 __all__ = [
@@ -577,12 +578,7 @@ class Spec(Strict):
     @field_validator("nodes")
     @classmethod
     def _unique(cls, nodes):
-        seen = set()
-        for node in nodes:
-            if node.name in seen:
-                raise ValueError(f"node name '{node.name}' is used twice")
-            seen.add(node.name)
-        return nodes
+        return unique_names(nodes)
 
     @property
     def sag_node(self) -> int:

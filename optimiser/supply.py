@@ -179,6 +179,7 @@ def _march_kernel(phi, ga, gb, kappa, c_row, beta, d_e, load_feed, peak, sines, 
             je[n] = 1.0
         for k in range(1, steps + 1):
             src = peak[b] * sines[k]
+            # y: the state at the step end with no drop in the path (u_k held, then first-order)
             for r in range(n):
                 acc = ga[b, r] * e + gb[b, r] * src + kappa[b, r]
                 for c in range(n):
@@ -189,7 +190,15 @@ def _march_kernel(phi, ga, gb, kappa, c_row, beta, d_e, load_feed, peak, sines, 
                 q += c_row[b, r] * y[r]
             i, d, sens, z = path_step(q, beta[b], si[b], vv[b], isat[b], nem[b], rs[b], perv[b],
                                       z)
-            if i <= 0.0 and d_e[b] == 0.0:
+            if want_jac:
+                for r in range(n):
+                    for c in range(n + 1):
+                        acc = 0.0
+                        for m in range(n):
+                            acc += phi[b, r, m] * jx[m, c]
+                        dy[r, c] = acc
+            hold = i <= 0.0 and d_e[b] == 0.0
+            if hold:
                 # Blocked inductive path (its current is a state): hold the drive constant over
                 # the step at the value that keeps the current at zero. A first-order hold from
                 # the last conducting value rings (the trapezoidal rule's undamped mode) into
@@ -197,23 +206,16 @@ def _march_kernel(phi, ga, gb, kappa, c_row, beta, d_e, load_feed, peak, sines, 
                 den = d_e[b]
                 acc0 = load_feed[b]
                 for r in range(n):
-                    den += c_row[b, r] * (ga[b, r] + gb[b, r])
-                    acc = kappa[b, r]
-                    for c in range(n):
-                        acc += phi[b, r, c] * x[c]
-                    y[r] = acc
-                    acc0 += c_row[b, r] * acc
+                    g0 = ga[b, r] + gb[b, r]
+                    y[r] -= ga[b, r] * e + gb[b, r] * src
+                    den += c_row[b, r] * g0
+                    acc0 += c_row[b, r] * y[r]
                 e_hold = -acc0 / den
                 for r in range(n):
                     x[r] = y[r] + (ga[b, r] + gb[b, r]) * e_hold
                 d = src - e_hold
+                i = 0.0
                 if want_jac:
-                    for r in range(n):
-                        for c in range(n + 1):
-                            acc = 0.0
-                            for m in range(n):
-                                acc += phi[b, r, m] * jx[m, c]
-                            dy[r, c] = acc
                     for c in range(n + 1):
                         acc = 0.0
                         for r in range(n):
@@ -222,32 +224,23 @@ def _march_kernel(phi, ga, gb, kappa, c_row, beta, d_e, load_feed, peak, sines, 
                     for r in range(n):
                         for c in range(n + 1):
                             jx[r, c] = dy[r, c] + (ga[b, r] + gb[b, r]) * je[c]
-                e = src - d
+            else:
                 for r in range(n):
-                    xs[b, k, r] = x[r]
-                es[b, k] = e
-                iss[b, k] = 0.0
-                ds[b, k] = d
-                continue
-            for r in range(n):
-                x[r] = y[r] - gb[b, r] * d
-            if want_jac:
-                for r in range(n):
-                    for c in range(n + 1):
-                        acc = ga[b, r] * je[c]
-                        for m in range(n):
-                            acc += phi[b, r, m] * jx[m, c]
-                        dy[r, c] = acc
-                for c in range(n + 1):
-                    acc = 0.0
+                    x[r] = y[r] - gb[b, r] * d
+                if want_jac:
                     for r in range(n):
-                        acc += c_row[b, r] * dy[r, c]
-                    dq[c] = sens * acc
-                for r in range(n):
+                        for c in range(n + 1):
+                            dy[r, c] += ga[b, r] * je[c]
                     for c in range(n + 1):
-                        jx[r, c] = dy[r, c] - gb[b, r] * dq[c]
-                for c in range(n + 1):
-                    je[c] = -dq[c]
+                        acc = 0.0
+                        for r in range(n):
+                            acc += c_row[b, r] * dy[r, c]
+                        dq[c] = sens * acc
+                    for r in range(n):
+                        for c in range(n + 1):
+                            jx[r, c] = dy[r, c] - gb[b, r] * dq[c]
+                    for c in range(n + 1):
+                        je[c] = -dq[c]
             e = src - d
             for r in range(n):
                 xs[b, k, r] = x[r]
