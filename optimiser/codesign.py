@@ -518,7 +518,8 @@ class CoDesign:
             build=block)
         design = Design.model_construct(mains=self._mains, transformer=transformer,
                                         rectifier=self._rectifiers[c.rectifier], nodes=nodes,
-                                        conditions=self.conditions)
+                                        conditions=self.conditions,
+                                        parts_files=list(self.spec.parts_files))
         object.__setattr__(design, "_built", built)
         return design
 

@@ -230,6 +230,8 @@ class Design(Strict):
     rectifier: Rectifier
     nodes: list[Node] = Field(min_length=1)
     conditions: Conditions = Conditions()
+    #: the user's own parts files (same layout as optimiser/data/*.yaml), relative to this file
+    parts_files: list[str] = []
 
     @field_validator("nodes")
     @classmethod
@@ -336,13 +338,36 @@ class Design(Strict):
 
 
 def load_design(source) -> Design:
-    """Read and validate a design: a path to a YAML file, a dict, or a :class:`Design`."""
+    """Read and validate a design: a path to a YAML file, a dict, or a :class:`Design`.
+
+    A ``parts_files`` list (paths relative to the design file, or to the working folder for a
+    dict) is made part of every catalogue lookup (:func:`optimiser.parts.use_user_files`).
+    """
     if isinstance(source, Design):
         return source
     if isinstance(source, dict):
+        register_parts_files(source, Path.cwd(), "design")
         return validate(Design, source)
     data, node = read_yaml(source)
+    register_parts_files(data, Path(source).parent, str(source))
     return validate(Design, data, node, str(source))
+
+
+def register_parts_files(data: dict, folder: Path, source: str) -> None:
+    """Resolve a file's ``parts_files`` against ``folder`` (in place) and register them."""
+    files = data.get("parts_files")
+    if not files:
+        return
+    if not isinstance(files, list) or not all(isinstance(f, str) for f in files):
+        raise DesignError([f"{source}: parts_files: a list of file paths"])
+    from . import parts
+
+    resolved = [str((folder / f).resolve()) for f in files]
+    try:
+        parts.use_user_files(resolved)
+    except parts.CatalogueError as exc:
+        raise DesignError([f"{source}: parts_files: {exc}"]) from None
+    data["parts_files"] = resolved
 
 
 from .transformer import TransformerBuild  # noqa: E402  (the build block refers back to schema)

@@ -178,6 +178,7 @@ def design_document(design) -> dict:
         "rectifier": _rectifier(design.rectifier),
         "nodes": [_node(n) for n in design.nodes],
         "conditions": _conditions(design.conditions),
+        **({"parts_files": list(design.parts_files)} if design.parts_files else {}),
     }
 
 

@@ -65,6 +65,7 @@ __all__ = [
     "e_series",
     "load_catalogue",
     "find_part",
+    "use_user_files",
     "bundled_file",
 ]
 
@@ -657,15 +658,50 @@ def _bundled(kind: str) -> _Catalogue:
     return catalogue
 
 
+#: User parts files named by the design or spec being worked on (see :func:`use_user_files`).
+_USER_FILES: tuple = ()
+
+
+def use_user_files(paths) -> None:
+    """Make these user parts files part of every catalogue lookup from now on.
+
+    A design or spec file names them under ``parts_files:``; its loader calls this, so every
+    later lookup (simulation, checks, parts list, search) sees the user's own parts. Entries
+    replace bundled ones sharing a name or alias. Each call replaces the previous list.
+
+    Parameters
+    ----------
+    paths : iterable of path
+    """
+    global _USER_FILES
+    files = tuple(Path(p).resolve() for p in paths)
+    for path in files:
+        if not path.is_file():
+            raise CatalogueError(f"{path}: parts file not found")
+    _USER_FILES = files
+
+
 def _catalogue(kind: str, extra_files: Iterable) -> _Catalogue:
-    k = _kind(kind)
     if isinstance(extra_files, (str, Path)):
         extra_files = (extra_files,)
-    extra = [Path(p) for p in extra_files]
-    if not extra:
-        return _bundled(k)
-    catalogue = _bundled(k).copy()
-    for path in extra:
+    k = _kind(kind)
+    # the registered files serve every kind they hold; files passed here must hold this kind
+    registered = tuple(p for p in _USER_FILES if _file_kind(p) == k)
+    return _merged(k, registered + tuple(Path(p) for p in extra_files))
+
+
+@lru_cache(maxsize=64)
+def _file_kind(path: Path):
+    data, _ = _read_yaml(path)
+    return data.get("kind") if isinstance(data, dict) else None
+
+
+@lru_cache(maxsize=64)
+def _merged(kind: str, files: tuple) -> _Catalogue:
+    if not files:
+        return _bundled(kind)
+    catalogue = _bundled(kind).copy()
+    for path in files:
         _merge(catalogue, path, override=True)
     return catalogue
 

@@ -50,7 +50,7 @@ from typing import Annotated, Literal, Optional
 from pydantic import BeforeValidator, Field, field_validator, model_validator
 
 from . import parts
-from .design import Conditions
+from .design import Conditions, register_parts_files
 from .yamlfile import DesignError, _positioned, read_yaml, validate
 from .schema import (
     Capacitance,
@@ -574,6 +574,8 @@ class Spec(Strict):
     margins: Margins = Margins()
     costs: Costs = Costs()
     search: SearchSettings = SearchSettings()
+    #: the user's own parts files (same layout as optimiser/data/*.yaml), relative to this file
+    parts_files: list[str] = []
 
     @field_validator("nodes")
     @classmethod
@@ -643,8 +645,10 @@ def load_spec(source) -> Spec:
     if isinstance(source, Spec):
         return source
     if isinstance(source, dict):
+        register_parts_files(source, Path.cwd(), "spec")
         return _spec_from(source)
     data, node = read_yaml(source)
+    register_parts_files(data, Path(source).parent, str(source))
     return _spec_from(data, node, str(source))
 
 

@@ -419,3 +419,38 @@ def test_bundled_files_are_cached():
     assert first == second and first is not second  # fresh dicts ...
     assert first["1N4007"] is second["1N4007"]  # ... over the same parsed models
     assert parts._bundled.cache_info().hits >= 1
+
+
+def test_a_design_file_brings_its_own_parts(tmp_path):
+    # Invented user part: a rectifier valve of the user's own, named in the design's parts_files
+    from optimiser import parts as parts_module
+    from optimiser.assessment import assess
+
+    (tmp_path / "my-valves.yaml").write_text(
+        "kind: valve\n"
+        "entries:\n"
+        "  - name: XR-9\n"
+        "    heating: direct\n"
+        "    heater_voltage: 5 V\n"
+        "    heater_current: 2 A\n"
+        "    max_piv: 1400 V\n"
+        "    max_peak_current: 600 mA\n"
+        "    max_dc_current: 200 mA\n"
+        "    drop_at_current: {voltage: 40 V, current: 200 mA}\n"
+        "    provenance: invented test part\n")
+    design = tmp_path / "d.yaml"
+    design.write_text(
+        "parts_files: [my-valves.yaml]\n"
+        "mains: {voltage: 230 V, frequency: 50 Hz}\n"
+        "transformer: {secondary_voltage: 300 V, secondary_resistance: 100 ohm}\n"
+        "rectifier: {topology: centre-tap, valve: XR-9}\n"
+        "nodes:\n"
+        "  - {name: b1, capacitance: 40 uF, bleeder: 220 kohm, load: {current: 100 mA}}\n")
+    try:
+        a = assess(design, detail=False)
+        piv = next(c for c in a.checks if c.name == "valve.piv")
+        assert piv.limit == 1400.0 and "invented test part" in piv.source
+    finally:
+        parts_module.use_user_files(())
+    with pytest.raises(PartNotFound, match="XR-9"):
+        parts_module.find_part("valve", "XR-9")
