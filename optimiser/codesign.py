@@ -519,7 +519,8 @@ class CoDesign:
         design = Design.model_construct(mains=self._mains, transformer=transformer,
                                         rectifier=self._rectifiers[c.rectifier], nodes=nodes,
                                         conditions=self.conditions,
-                                        parts_files=list(self.spec.parts_files))
+                                        parts_files=list(self.spec.parts_files),
+                                        transformer_data=self.spec.transformer_data)
         object.__setattr__(design, "_built", built)
         return design
 

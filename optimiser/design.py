@@ -232,6 +232,8 @@ class Design(Strict):
     conditions: Conditions = Conditions()
     #: the user's own parts files (same layout as optimiser/data/*.yaml), relative to this file
     parts_files: list[str] = []
+    #: the user's own folder of transformer data (cores, steels, wire, prices), relative to it
+    transformer_data: Optional[str] = None
 
     @field_validator("nodes")
     @classmethod
@@ -346,15 +348,28 @@ def load_design(source) -> Design:
     if isinstance(source, Design):
         return source
     if isinstance(source, dict):
-        register_parts_files(source, Path.cwd(), "design")
+        register_user_data(source, Path.cwd(), "design")
         return validate(Design, source)
     data, node = read_yaml(source)
-    register_parts_files(data, Path(source).parent, str(source))
+    register_user_data(data, Path(source).parent, str(source))
     return validate(Design, data, node, str(source))
 
 
-def register_parts_files(data: dict, folder: Path, source: str) -> None:
-    """Resolve a file's ``parts_files`` against ``folder`` (in place) and register them."""
+def register_user_data(data: dict, folder: Path, source: str) -> None:
+    """Resolve a file's ``parts_files`` and ``transformer_data`` against ``folder`` (in place)
+    and register them for every later lookup."""
+    directory = data.get("transformer_data")
+    if directory is not None:
+        from .transformer import use_user_folder
+
+        if not isinstance(directory, str):
+            raise DesignError([f"{source}: transformer_data: a folder path"])
+        resolved = str((folder / directory).resolve())
+        try:
+            use_user_folder(resolved)
+        except ValueError as exc:
+            raise DesignError([f"{source}: transformer_data: {exc}"]) from None
+        data["transformer_data"] = resolved
     files = data.get("parts_files")
     if not files:
         return

@@ -179,6 +179,7 @@ def design_document(design) -> dict:
         "nodes": [_node(n) for n in design.nodes],
         "conditions": _conditions(design.conditions),
         **({"parts_files": list(design.parts_files)} if design.parts_files else {}),
+        **({"transformer_data": design.transformer_data} if design.transformer_data else {}),
     }
 
 

@@ -50,7 +50,7 @@ from typing import Annotated, Literal, Optional
 from pydantic import BeforeValidator, Field, field_validator, model_validator
 
 from . import parts
-from .design import Conditions, register_parts_files
+from .design import Conditions, register_user_data
 from .yamlfile import DesignError, _positioned, read_yaml, validate
 from .schema import (
     Capacitance,
@@ -576,6 +576,8 @@ class Spec(Strict):
     search: SearchSettings = SearchSettings()
     #: the user's own parts files (same layout as optimiser/data/*.yaml), relative to this file
     parts_files: list[str] = []
+    #: the user's own folder of transformer data (cores, steels, wire, prices), relative to it
+    transformer_data: Optional[str] = None
 
     @field_validator("nodes")
     @classmethod
@@ -645,10 +647,10 @@ def load_spec(source) -> Spec:
     if isinstance(source, Spec):
         return source
     if isinstance(source, dict):
-        register_parts_files(source, Path.cwd(), "spec")
+        register_user_data(source, Path.cwd(), "spec")
         return _spec_from(source)
     data, node = read_yaml(source)
-    register_parts_files(data, Path(source).parent, str(source))
+    register_user_data(data, Path(source).parent, str(source))
     return _spec_from(data, node, str(source))
 
 

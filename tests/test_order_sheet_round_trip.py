@@ -51,3 +51,29 @@ def test_cli_order_sheet_needs_a_build(capsys):
     demo = DEMO.with_name("demo-design-valve.yaml")
     assert main(["transformer", str(demo)]) == 2
     assert "no build block" in capsys.readouterr().err
+
+
+def test_a_design_brings_its_own_core(tmp_path):
+    # Invented user core: the bundled cores file copied, with one core of the user's own added
+    from optimiser.transformer import use_user_folder
+
+    bundled = (Path(__file__).parents[1] / "optimiser" / "data" / "cores.yaml").read_text()
+    mine = tmp_path / "my-data"
+    mine.mkdir()
+    entry = re.search(r"(?ms)^  - name: EI-a35\n.*?(?=^  - name:)", bundled).group(0)
+    (mine / "cores.yaml").write_text(bundled.replace(
+        entry, entry + entry.replace("EI-a35", "EI-my35").replace(
+            "provenance: \"", "provenance: \"invented test core; was: "), 1))
+    raw = yaml.safe_load(DEMO.read_text())
+    raw["transformer"]["build"]["core"] = "EI-my35"
+    raw["transformer_data"] = "my-data"
+    path = tmp_path / "design.yaml"
+    path.write_text(yaml.safe_dump(raw))
+    try:
+        design = load_design(path)
+        assert design.transformer_design.core_name == "EI-my35"
+        # the same geometry as the bundled core it was copied from
+        assert design.transformer.secondary_resistance == pytest.approx(
+            load_design(DEMO).transformer.secondary_resistance, rel=1e-9)
+    finally:
+        use_user_folder(None)

@@ -58,6 +58,7 @@ from .physics import (
 from .data import (
     TransformerData,
     load_transformer_data,
+    use_user_folder,
 )
 from .population import (
     wire_size_for_current,
@@ -86,6 +87,7 @@ __all__ = [
     "COPPER_DENSITY",
     "TransformerData",
     "load_transformer_data",
+    "use_user_folder",
     "copper_resistivity",
     "awg_diameter",
     "resistance_per_length",

@@ -293,11 +293,42 @@ def _wire_tables(wire: WireFile) -> dict:
     return tables
 
 
+#: The user's own folder of transformer data files (see :func:`use_user_folder`).
+_USER_DIR: Path | None = None
+DATA_FILES = ("cores.yaml", "steels.yaml", "wire.yaml", "prices.yaml")
+
+
+def use_user_folder(directory) -> None:
+    """Take transformer data files from the user's own folder from now on.
+
+    Each of ``cores.yaml``, ``steels.yaml``, ``wire.yaml`` and ``prices.yaml`` found there
+    replaces the bundled file of that name (copy the bundled one and edit it: add your own cores,
+    steels, prices); the others stay bundled. A design or spec file names the folder under
+    ``transformer_data:``. ``None`` goes back to the bundled files.
+    """
+    global _USER_DIR
+    if directory is None:
+        _USER_DIR = None
+        return
+    folder = Path(directory).resolve()
+    if not folder.is_dir():
+        raise ValueError(f"{folder}: transformer data folder not found")
+    if not any((folder / name).is_file() for name in DATA_FILES):
+        raise ValueError(f"{folder}: holds none of {', '.join(DATA_FILES)}")
+    _USER_DIR = folder
+
+
+def _file(directory: Path, name: str) -> Path:
+    if _USER_DIR is not None and directory == _DATA_DIR and (_USER_DIR / name).is_file():
+        return _USER_DIR / name
+    return directory / name
+
+
 def _load(directory: Path) -> TransformerData:
-    cores = CoresFile.model_validate(_read_yaml(directory / "cores.yaml"))
-    steels = SteelsFile.model_validate(_read_yaml(directory / "steels.yaml"))
-    wire = WireFile.model_validate(_read_yaml(directory / "wire.yaml"))
-    prices = PriceModel.model_validate(_read_yaml(directory / "prices.yaml"))
+    cores = CoresFile.model_validate(_read_yaml(_file(directory, "cores.yaml")))
+    steels = SteelsFile.model_validate(_read_yaml(_file(directory, "steels.yaml")))
+    wire = WireFile.model_validate(_read_yaml(_file(directory, "wire.yaml")))
+    prices = PriceModel.model_validate(_read_yaml(_file(directory, "prices.yaml")))
     fits = []
     for steel in steels.steels:
         pts = steel.core_loss
@@ -324,7 +355,8 @@ def _load(directory: Path) -> TransformerData:
 
 
 @lru_cache(maxsize=8)
-def _load_cached(directory: str) -> TransformerData:
+def _load_cached(directory: str, user_folder: str) -> TransformerData:
+    del user_folder  # part of the cache key: the files _load picks depend on it
     return _load(Path(directory))
 
 
@@ -337,4 +369,5 @@ def load_transformer_data(directory: str | Path | None = None) -> TransformerDat
         Folder holding the four files; the package's ``optimiser/data`` when omitted. Results are
         cached per folder, so edit-and-reload needs a new process.
     """
-    return _load_cached(str(Path(directory) if directory is not None else _DATA_DIR))
+    return _load_cached(str(Path(directory) if directory is not None else _DATA_DIR),
+                        str(_USER_DIR or ""))
