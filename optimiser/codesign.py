@@ -243,6 +243,8 @@ class CoDesign:
         self.density_grid = jr.min + jr.step * np.arange(
             int(math.floor((jr.max - jr.min) / jr.step + 1e-9)) + 1)
         full_dc = sum(ns.full_power_current for ns in spec.nodes)
+        # without a range in the spec: a capacitor-input winding carries roughly 1.2-2 x I_dc RMS
+        # (REFERENCES.md: ~1.6 x for a bridge at R_s/R_L = 10 %), bracketed generously
         self.hv_current_range = ((c.hv_current.min, c.hv_current.max) if c.hv_current else
                                  (0.5 * full_dc, 3.0 * full_dc))
         self.capacitor_choice = [c.reservoir] + [c.filter] * (n_nodes - 1)
