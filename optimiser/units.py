@@ -165,7 +165,7 @@ def format_quantity(value: float, unit: str, digits: int = 3) -> str:
         return "n/a"
     if value == 0:
         return f"0 {unit}".strip()
-    if unit in ("%", "", "degC", "K", "dB"):
+    if unit in ("%", "", "-", "degC", "K", "dB"):
         return f"{value:.{digits}g} {unit}".strip()
     mag = abs(value)
     for scale, prefix in _PREFIXES:
