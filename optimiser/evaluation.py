@@ -263,12 +263,9 @@ def initial_states(batch: Batch, model: ladder.StateSpace) -> np.ndarray:
     r_load = np.maximum(batch.peak - drop, 1.0) / total
     v0 = batch.peak * rectifier.infinite_capacitance_output(v.path_resistance / r_load) - drop
     v0 = np.clip(v0, 0.05 * batch.peak, batch.peak)
-    node_v = np.empty((count, n_nodes))
-    node_v[:, 0] = v0
-    downstream = np.empty((count, n_nodes))
+    node_v = np.repeat(v0[:, None], n_nodes, axis=1)
     for _ in range(2):
-        load = v.load_current + v.load_conductance * node_v if _ else v.load_current + \
-            v.load_conductance * v0[:, None]
+        load = v.load_current + v.load_conductance * node_v
         downstream = np.cumsum(load[:, ::-1], axis=1)[:, ::-1]
         for k in range(1, n_nodes):
             node_v[:, k] = node_v[:, k - 1] - v.feed_resistance[:, k] * downstream[:, k]

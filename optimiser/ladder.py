@@ -5,8 +5,6 @@ analysis (MNA) and reduced to an ordinary state-space model ``dx/dt = A x + B u`
 capacitor voltages and inductor currents, with inputs ``u = [e, I_1, ..., I_N]``: ``e`` the voltage
 driving the rectifier path (source minus the elements' drop) and ``I_k`` the constant-current sink
 at node ``k``. Every array has the batch (design) dimension first.
-
-Also here: the classic closed-form figures of filter sections used for cross-checks.
 """
 
 from __future__ import annotations
@@ -20,9 +18,6 @@ __all__ = [
     "LadderValues",
     "StateSpace",
     "state_space",
-    "rc_attenuation",
-    "lc_attenuation",
-    "critical_inductance",
 ]
 
 
@@ -247,59 +242,3 @@ def state_space(structure: LadderStructure, values: LadderValues) -> StateSpace:
         capacitor_voltage_index=np.array([position[c] for c in cap_node]),
         inductor_index=[(k, position[branch[k]]) for k in sorted(branch)],
     )
-
-
-def rc_attenuation(resistance, capacitance, ripple_angular_frequency):
-    """Ripple attenuation of an RC section, 1/sqrt(1 + (w_r R C)^2). [-]
-
-    Parameters
-    ----------
-    resistance : numeric
-        Series resistance. [ohm]
-    capacitance : numeric
-        Shunt capacitance. [F]
-    ripple_angular_frequency : numeric
-        w_r = 2*w for a full-wave rectifier. [rad/s]
-
-    References
-    ----------
-    .. [1] First-order low-pass response; F. Langford-Smith (ed.), Radiotron Designer's
-       Handbook, 4th ed., 1953, ch. 31 (filters).
-    """
-    x = ripple_angular_frequency * resistance * capacitance
-    return 1.0 / np.sqrt(1.0 + x * x)
-
-
-def lc_attenuation(inductance, capacitance, ripple_angular_frequency):
-    """Ripple attenuation of an LC section well above resonance, 1/(w_r^2 L C - 1). [-]
-
-    References
-    ----------
-    .. [1] F. Langford-Smith (ed.), Radiotron Designer's Handbook, 4th ed., 1953, ch. 31.
-    """
-    return 1.0 / (ripple_angular_frequency ** 2 * inductance * capacitance - 1.0)
-
-
-def critical_inductance(load_resistance, angular_frequency):
-    """Least choke inductance that keeps a full-wave choke-input filter in continuous conduction.
-
-    L_crit = R_L / (3 w), from the 2w term of the full-wave rectified sine (4 V_m / 3 pi).
-
-    Parameters
-    ----------
-    load_resistance : numeric
-        DC load resistance seen by the choke. [ohm]
-    angular_frequency : numeric
-        Mains angular frequency w. [rad/s]
-
-    Returns
-    -------
-    numeric
-        [H]
-
-    References
-    ----------
-    .. [1] Derived from the Fourier series of the full-wave rectified sine; the trade rounds it
-       to L >= R_L/1000 at 60 Hz (common practice).
-    """
-    return load_resistance / (3.0 * angular_frequency)

@@ -18,13 +18,9 @@ __all__ = [
     "PathElements",
     "shockley_voltage",
     "child_langmuir_voltage",
-    "child_langmuir_current",
-    "path_drop",
     "path_step",
-    "solve_path",
     "conduction_half_angle",
     "infinite_capacitance_output",
-    "infinite_capacitance_peak_ratio",
     "ideal_diode_output",
 ]
 
@@ -116,40 +112,6 @@ def child_langmuir_voltage(current, perveance):
     return np.cbrt(current / perveance) ** 2
 
 
-def child_langmuir_current(voltage, perveance):
-    """Plate current of a vacuum diode, I = K*max(V, 0)^1.5 (Child-Langmuir law). [A]"""
-    return perveance * np.maximum(np.asarray(voltage, dtype=float), 0.0) ** 1.5
-
-
-def path_drop(current, elements: PathElements):
-    """Forward drop of a whole conducting path and its slope dV/dI.
-
-    Parameters
-    ----------
-    current : ndarray
-        Path current, >= 0. [A]
-    elements : PathElements
-
-    Returns
-    -------
-    (ndarray, ndarray)
-        Drop [V] and incremental resistance [ohm].
-    """
-    i = np.maximum(current, 1e-30)
-    e = elements
-    nvt = e.emission_coefficient * THERMAL_VOLTAGE
-    v_si = nvt * np.log1p(i / e.saturation_current) + i * e.series_resistance
-    r_si = nvt / (e.saturation_current + i) + e.series_resistance
-    has_valve = e.valve_count > 0
-    k = np.where(has_valve, e.perveance, 1.0)
-    w = np.cbrt(i / k)
-    v_valve = w * w
-    r_valve = (2.0 / 3.0) / (k * w)
-    drop = e.silicon_count * v_si + np.where(has_valve, e.valve_count * v_valve, 0.0)
-    slope = e.silicon_count * r_si + np.where(has_valve, e.valve_count * r_valve, 0.0)
-    return drop, slope
-
-
 @numba.njit(cache=True)
 def path_step(q, beta, silicon_count, valve_count, saturation_current, emission_coefficient,
               series_resistance, perveance, guess):
@@ -231,29 +193,6 @@ def path_step(q, beta, silicon_count, valve_count, saturation_current, emission_
     return i, d, r / (1.0 + beta * r), z
 
 
-@numba.njit(cache=True)
-def _solve_batch(q, beta, si, vv, isat, n, rs, k, guess):
-    count = q.shape[0]
-    i = np.empty(count)
-    d = np.empty(count)
-    s = np.empty(count)
-    z = np.empty(count)
-    for b in range(count):
-        i[b], d[b], s[b], z[b] = path_step(q[b], beta[b], si[b], vv[b], isat[b], n[b], rs[b],
-                                           k[b], guess[b])
-    return i, d, s, z
-
-
-def solve_path(available, coupling, elements: PathElements, state_guess):
-    """:func:`path_step` over a batch of designs; arrays in, arrays out (same returns)."""
-    e = elements
-    q = np.ascontiguousarray(available, dtype=float)
-    arrays = [np.broadcast_to(np.asarray(a, dtype=float), q.shape).copy() for a in (
-        coupling, e.silicon_count, e.valve_count, e.saturation_current, e.emission_coefficient,
-        e.series_resistance, e.perveance, state_guess)]
-    return _solve_batch(q, *arrays)
-
-
 def conduction_half_angle(rs_over_rl, pulses=2):
     """Half conduction angle of a capacitor-input rectifier with infinite C and series resistance.
 
@@ -292,19 +231,6 @@ def infinite_capacitance_output(rs_over_rl, pulses=2):
     .. [1] O. H. Schade, Proc. IRE, vol. 31, no. 7, 1943 (infinite-C limit).
     """
     return np.cos(conduction_half_angle(rs_over_rl, pulses))
-
-
-def infinite_capacitance_peak_ratio(rs_over_rl, pulses=2):
-    """Peak over average current per rectifying element with infinite C. [-]
-
-    I_pk / I_av = pi * (1 - cos(phi)) / (sin(phi) - phi*cos(phi)).
-
-    References
-    ----------
-    .. [1] O. H. Schade, Proc. IRE, vol. 31, no. 7, 1943 (infinite-C limit).
-    """
-    phi = conduction_half_angle(rs_over_rl, pulses)
-    return np.pi * (1 - np.cos(phi)) / (np.sin(phi) - phi * np.cos(phi))
 
 
 def ideal_diode_output(omega_c_rl):

@@ -2,7 +2,7 @@
 
 The linear ladder (see :mod:`optimiser.ladder`) is stepped exactly by its matrix exponential with
 a first-order-hold on the inputs; the only nonlinearity, the rectifier path, is solved implicitly
-at each step end as a scalar complementarity problem (see :func:`optimiser.rectifier.solve_path`).
+at each step end as a scalar complementarity problem (see :func:`optimiser.rectifier.path_step`).
 
 A full-wave rectifier's circuit repeats every half mains cycle (the two paths take turns and are
 alike), so the periodic steady state is found by shooting over one half-cycle: Newton's method on

@@ -50,6 +50,7 @@ __all__ = [
     "simulate",
     "load_design",
     "invented_designs",
+    "design_dict",
 ]
 
 NGSPICE = "ngspice"
@@ -999,13 +1000,16 @@ def simulate(
 _SILICON = {"saturation_current": "5 nA", "emission_coefficient": 1.8, "series_resistance": "0.03 ohm"}
 
 
-def _invented(topology, secondary_voltage, secondary_resistance, nodes, *, leakage=None, perveance=None, silicon=True):
+def design_dict(topology, secondary_voltage, secondary_resistance, nodes, *, diode=_SILICON,
+                perveance=None, leakage=None):
+    """An invented design in Railwright's design-file format, on 230 V / 50 Hz mains (fresh dicts
+    every call). ``diode=None`` for a path with no silicon."""
     transformer = {"secondary_voltage": secondary_voltage, "secondary_resistance": secondary_resistance}
     if leakage:
         transformer["leakage_inductance"] = leakage
     rectifier = {"topology": topology}
-    if silicon:
-        rectifier["diode"] = dict(_SILICON)
+    if diode:
+        rectifier["diode"] = dict(diode)
     if perveance:
         rectifier["valve"] = {"perveance": perveance}
     return {
@@ -1023,39 +1027,39 @@ def invented_designs() -> dict[str, dict]:
     """
     return {
         # Invented test case: silicon bridge, capacitor input, reservoir with ESR, two nodes.
-        "bridge": _invented("bridge", "300 V", "50 ohm", [
+        "bridge": design_dict("bridge", "300 V", "50 ohm", [
             {"name": "plates", "capacitance": "100 uF", "esr": "0.2 ohm", "load": {"current": "200 mA"}},
             {"name": "screens", "feed": {"resistance": "470 ohm"}, "capacitance": "47 uF", "load": {"current": "15 mA"}},
         ]),
         # Invented test case: silicon centre-tap (per half-winding values).
-        "centre-tap-silicon": _invented("centre-tap", "280 V", "35 ohm", [
+        "centre-tap-silicon": design_dict("centre-tap", "280 V", "35 ohm", [
             {"name": "plates", "capacitance": "68 uF", "load": {"current": "120 mA"}},
         ]),
         # Invented test case: valve centre-tap, small reservoir.
-        "centre-tap-valve": _invented("centre-tap", "330 V", "90 ohm", [
+        "centre-tap-valve": design_dict("centre-tap", "330 V", "90 ohm", [
             {"name": "plates", "capacitance": "32 uF", "load": {"current": "110 mA"}},
-        ], perveance="7.07e-4", silicon=False),
+        ], perveance="7.07e-4", diode=None),
         # Invented test case: silicon bridge with a large leakage inductance.
-        "bridge-leakage": _invented("bridge", "300 V", "20 ohm", [
+        "bridge-leakage": design_dict("bridge", "300 V", "20 ohm", [
             {"name": "plates", "capacitance": "150 uF", "load": {"current": "250 mA"}},
         ], leakage="150 mH"),
         # Invented test case: three-node CRC ladder, the last node a resistive load.
-        "crc-ladder": _invented("bridge", "300 V", "50 ohm", [
+        "crc-ladder": design_dict("bridge", "300 V", "50 ohm", [
             {"name": "plates", "capacitance": "47 uF", "load": {"current": "150 mA"}},
             {"name": "screens", "feed": {"resistance": "1 kohm"}, "capacitance": "22 uF", "load": {"current": "20 mA"}},
             {"name": "input", "feed": {"resistance": "10 kohm"}, "capacitance": "22 uF", "load": {"resistance": "100 kohm"}},
         ]),
         # Invented test case: hybrid bridge (valve plates up, silicon down).
-        "hybrid-bridge": _invented("hybrid-bridge", "350 V", "60 ohm", [
+        "hybrid-bridge": design_dict("hybrid-bridge", "350 V", "60 ohm", [
             {"name": "plates", "capacitance": "47 uF", "load": {"current": "140 mA"}},
         ], perveance="1.0e-3"),
         # Invented test case: choke input (L feed on the first node), no leakage inductance.
-        "choke-input": _invented("bridge", "380 V", "40 ohm", [
+        "choke-input": design_dict("bridge", "380 V", "40 ohm", [
             {"name": "plates", "feed": {"inductance": "10 H", "resistance": "150 ohm"}, "capacitance": "47 uF",
              "load": {"current": "150 mA"}},
         ]),
         # Invented test case: resistive load on a large reservoir.
-        "resistive-load": _invented("bridge", "300 V", "15 ohm", [
+        "resistive-load": design_dict("bridge", "300 V", "15 ohm", [
             {"name": "plates", "capacitance": "220 uF", "load": {"resistance": "2.2 kohm"}},
         ]),
     }

@@ -18,8 +18,7 @@ from scipy.optimize import brentq
 import spice
 from conftest import REQUIRE_TOOLS_VARIABLE, require_tool
 
-MAINS = {"voltage": "230 V", "frequency": "50 Hz"}
-OMEGA = 2 * math.pi * 50.0  # [rad/s] line angular frequency of MAINS
+OMEGA = 2 * math.pi * 50.0  # [rad/s] line angular frequency of the 50 Hz mains of spice.design_dict
 # kT/q at SPICE's default 27 degC, from the exact SI 2019 constants k and q.
 THERMAL_VOLTAGE = 1.380649e-23 * 300.15 / 1.602176634e-19  # [V]
 
@@ -33,15 +32,8 @@ NEAR_IDEAL_IS, NEAR_IDEAL_N = 1e-9, 0.05
 
 def design(topology, secondary_voltage, secondary_resistance, nodes, *, diode=SILICON, perveance=None, leakage=None):
     """An invented test design in Railwright's design-file format (fresh dicts every call)."""
-    transformer = {"secondary_voltage": secondary_voltage, "secondary_resistance": secondary_resistance}
-    if leakage:
-        transformer["leakage_inductance"] = leakage
-    rectifier = {"topology": topology}
-    if diode:
-        rectifier["diode"] = dict(diode)
-    if perveance:
-        rectifier["valve"] = {"perveance": perveance}
-    return {"mains": dict(MAINS), "transformer": transformer, "rectifier": rectifier, "nodes": nodes}
+    return spice.design_dict(topology, secondary_voltage, secondary_resistance, nodes, diode=diode,
+                             perveance=perveance, leakage=leakage)
 
 
 def shockley_drop(current, saturation_current, emission_coefficient, series_resistance=0.0):
