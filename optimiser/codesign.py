@@ -337,27 +337,40 @@ class CoDesign:
             out.append(Variable(f"{name}.feed", 0, len(options) - 1, integer=True))
         return out
 
-    def decode(self, X) -> list[Candidate]:
-        """Candidates from a population matrix (integer columns are taken as indices)."""
+    def choices(self, X) -> dict:
+        """The choices of a population matrix as arrays (integer columns taken as indices):
+        ``hv_voltage``, ``hv_current``, ``core_stack``, ``current_density``, ``rectifier`` (B,);
+        ``capacitance``, ``rating_steps`` (B, N); ``feeds`` (B, N - 1)."""
         X = np.atleast_2d(np.asarray(X, float))
         n = len(self.node_names)
 
         def index(col, count):
             return np.clip(np.rint(X[:, col]).astype(int), 0, count - 1)
 
-        volts = self.voltage_grid[index(0, len(self.voltage_grid))]
-        amps = _sig(10.0 ** X[:, 1], 3)
-        core = index(2, len(self.core_stacks))
-        density = self.density_grid[index(3, len(self.density_grid))]
-        rect = index(4, len(self.spec.choices.rectifiers))
-        caps = [self.capacitor_values[k][index(5 + k, len(self.capacitor_values[k]))]
-                for k in range(n)]
-        steps = [index(5 + n + k, RATING_CHOICES) for k in range(n)]
-        feeds = [index(5 + 2 * n + k - 1, len(self.feed_options[k])) for k in range(1, n)]
-        return [Candidate(float(volts[b]), float(amps[b]), int(core[b]), float(density[b]),
-                          int(rect[b]), tuple(float(caps[k][b]) for k in range(n)),
-                          tuple(int(s[b]) for s in steps), tuple(int(f[b]) for f in feeds))
-                for b in range(X.shape[0])]
+        return {
+            "hv_voltage": self.voltage_grid[index(0, len(self.voltage_grid))],
+            "hv_current": _sig(10.0 ** X[:, 1], 3),
+            "core_stack": index(2, len(self.core_stacks)),
+            "current_density": self.density_grid[index(3, len(self.density_grid))],
+            "rectifier": index(4, len(self.spec.choices.rectifiers)),
+            "capacitance": np.column_stack([
+                self.capacitor_values[k][index(5 + k, len(self.capacitor_values[k]))]
+                for k in range(n)]),
+            "rating_steps": np.column_stack([index(5 + n + k, RATING_CHOICES)
+                                             for k in range(n)]),
+            "feeds": np.column_stack([index(5 + 2 * n + k - 1, len(self.feed_options[k]))
+                                      for k in range(1, n)]).reshape(len(X), n - 1),
+        }
+
+    def decode(self, X) -> list[Candidate]:
+        """Candidates from a population matrix (integer columns are taken as indices)."""
+        c = self.choices(X)
+        return [Candidate(float(c["hv_voltage"][b]), float(c["hv_current"][b]),
+                          int(c["core_stack"][b]), float(c["current_density"][b]),
+                          int(c["rectifier"][b]), tuple(float(v) for v in c["capacitance"][b]),
+                          tuple(int(v) for v in c["rating_steps"][b]),
+                          tuple(int(v) for v in c["feeds"][b]))
+                for b in range(len(c["rectifier"]))]
 
     def encode(self, candidate: Candidate) -> np.ndarray:
         """The population row of a candidate (the inverse of :meth:`decode`)."""
@@ -372,20 +385,20 @@ class CoDesign:
 
     # ---------------------------------------------------------------- designs
 
-    def designs(self, candidates) -> list[Design]:
-        """Concrete designs of candidates, their transformers designed in one vectorised pass."""
+    def transformer_populations(self, core_stack, hv_voltage, hv_current, current_density,
+                                rectifier):
+        """The physical transformers of designs (arrays (B,)), in one vectorised pass per kind
+        (with or without a rectifier heater winding): [(member rows, TransformerPopulation)]."""
         s = self.spec
-        count = len(candidates)
         options = s.choices.rectifiers
-        heater = [self.rectifier_heater(options[c.rectifier]) for c in candidates]
-        built = [None] * count
-        blocks = [None] * count
+        heater = [self.rectifier_heater(options[int(r)]) for r in rectifier]
+        out = []
         for with_heater in (False, True):
-            members = [b for b in range(count) if (heater[b] is not None) == with_heater]
-            if not members:
+            members = np.array([b for b in range(len(rectifier))
+                                if (heater[b] is not None) == with_heater], int)
+            if not members.size:
                 continue
-            cands = [candidates[b] for b in members]
-            ct = np.array([options[c.rectifier].centre_tapped for c in cands])
+            ct = np.array([options[int(rectifier[b])].centre_tapped for b in members])
             heaters = [AuxiliaryWinding(h.name, h.voltage, h.current, h.centre_tap)
                        for h in s.heaters]
             if with_heater:
@@ -395,21 +408,37 @@ class CoDesign:
             bias = (AuxiliaryWinding("bias", s.bias.voltage, s.bias.current, s.bias.centre_tap)
                     if s.bias is not None else None)
             t = s.transformer
+            cores = [self.core_stacks[int(c)] for c in core_stack[members]]
             pop = design_population(
-                core_index=np.array([self.core_stacks[c.core_stack][0] for c in cands]),
-                stack=np.array([self.core_stacks[c.core_stack][2] for c in cands]),
+                core_index=np.array([c[0] for c in cores]),
+                stack=np.array([c[2] for c in cores]),
                 max_flux_density=self.max_flux_density,
-                hv_voltage=np.array([c.hv_voltage for c in cands]),
-                hv_rms_current=np.array([c.hv_current for c in cands]),
+                hv_voltage=np.asarray(hv_voltage, float)[members],
+                hv_rms_current=np.asarray(hv_current, float)[members],
                 frequency=s.mains.frequency, primary_voltages=self.primaries,
                 primary_arrangement=t.primary_arrangement,
                 insulation_class=t.insulation_class, ambient_temperature=s.ambient,
                 hv_centre_tapped=ct,
-                current_density=np.array([c.current_density for c in cands]),
+                current_density=np.asarray(current_density, float)[members],
                 heaters=heaters, bias=bias, screen=t.screen, steel_index=self.steel_index,
                 wire_system=t.wire, data=self.transformer_data)
+            out.append((members, pop))
+        return out
+
+    def designs(self, candidates) -> list[Design]:
+        """Concrete designs of candidates, their transformers designed in one vectorised pass."""
+        options = self.spec.choices.rectifiers
+        count = len(candidates)
+        built = [None] * count
+        blocks = [None] * count
+        field = lambda name: np.array([getattr(c, name) for c in candidates])  # noqa: E731
+        for members, pop in self.transformer_populations(
+                field("core_stack"), field("hv_voltage"), field("hv_current"),
+                field("current_density"), field("rectifier")):
             for j, b in enumerate(members):
-                block = self._build_block(candidates[b], bool(ct[j]), heater[b])
+                c = candidates[b]
+                option = options[c.rectifier]
+                block = self._build_block(c, option.centre_tapped, self.rectifier_heater(option))
                 blocks[b] = block
                 built[b] = pop.design(j, build=block)
         return [self._design(c, blk, td) for c, blk, td in zip(candidates, blocks, built)]
@@ -619,6 +648,50 @@ class CoDesign:
             return np.column_stack([pd.to_numeric(fr[c], errors="coerce").to_numpy(float)
                                     for c in cols])
 
+        sag_name = self.node_names[s.sag_node]
+        figures = {}
+        for ns in s.nodes:
+            for key in ("idle_voltage", "full_power_voltage", "ripple_pp"):
+                figures[f"{ns.name}.{key}"] = columns(f"{ns.name}.{key}")
+        figures["static_drop"] = columns(f"{sag_name}.static_drop_percent") / 100.0
+        for what in ("attack", "recovery"):
+            figures[f"{what}_time"] = columns(f"{sag_name}.{what}_time").astype(float)
+        ratios = {name: table.ratios[name].to_numpy(float) for name in table.ratios.columns}
+        buildable = np.array([_buildable(d) for d in designs])
+        regulation, G = self.constraint_values(figures, buildable, self._made(designs), ratios)
+
+        lines = [self.parts_list(d) for d in designs]
+        cost = np.array([sum(line.cost for line in ls) for ls in lines])
+        stress = fr["rectifier_stress"].to_numpy(float)
+        F = self.objective_values(cost, regulation, stress)
+        frame = self._frame(designs, lines, F, G, table)
+        return Scored(designs=list(designs), frame=frame, F=F, G=G, table=table)
+
+    @staticmethod
+    def objective_values(cost, regulation, stress):
+        """F (B, 3) from the objectives' figures; a figure that failed counts as very bad."""
+        F = np.column_stack([cost, regulation, stress])
+        return np.where(np.isfinite(F), F, 1e6)
+
+    def constraint_values(self, figures, buildable, made, ratios):
+        """(regulation (B,), G (B, M)) from the figures of designs.
+
+        Parameters
+        ----------
+        figures : dict of ndarray (B, P)
+            Per switch position (P = 1 for a fixed rectifier; NaN where a design has fewer):
+            ``<node>.idle_voltage``, ``<node>.full_power_voltage``, ``<node>.ripple_pp`` at
+            nominal mains [V]; ``static_drop`` at the sag node [-]; ``attack_time``,
+            ``recovery_time`` [s].
+        buildable : ndarray of bool (B,)
+        made : ndarray of bool (B, N)
+            Each node's capacitor value made at its voltage rating.
+        ratios : dict of str -> ndarray (B,)
+            Check ratios by check name (NaN where a check does not apply).
+        """
+        s = self.spec
+        count = len(buildable)
+
         def worst(values):
             with np.errstate(all="ignore"):
                 return np.where(np.isnan(values).all(axis=1), np.nan,
@@ -626,16 +699,15 @@ class CoDesign:
 
         g = []
         for ns in s.nodes:
-            v = columns(f"{ns.name}.idle_voltage" if ns.at == "idle"
-                        else f"{ns.name}.full_power_voltage")
+            v = figures[f"{ns.name}.idle_voltage" if ns.at == "idle"
+                        else f"{ns.name}.full_power_voltage"]
             g.append(worst((ns.dc_voltage - ns.window - v) / ns.window))
             g.append(worst((v - ns.dc_voltage - ns.window) / ns.window))
             if ns.ripple is not None or ns.hum is not None:
-                ripple = columns(f"{ns.name}.ripple_pp")
-                full_v = columns(f"{ns.name}.full_power_voltage")
+                ripple = figures[f"{ns.name}.ripple_pp"]
+                full_v = figures[f"{ns.name}.full_power_voltage"]
                 g.append(worst(ripple / ns.ripple_pp_limit(full_v) - 1.0))
-        sag_name = self.node_names[s.sag_node]
-        drop = columns(f"{sag_name}.static_drop_percent") / 100.0
+        drop = figures["static_drop"]
         if s.sag is not None:
             off = np.abs(drop - s.sag.target)
             regulation = worst(off)
@@ -644,37 +716,27 @@ class CoDesign:
                 window = getattr(s.sag, what)
                 if window is None:
                     continue
-                t = columns(f"{sag_name}.{what}_time").astype(float)
+                t = figures[f"{what}_time"]
                 if window.min is not None:
                     g.append(worst((window.min - t) / window.min))
                 if window.max is not None:
                     g.append(worst((t - window.max) / window.max))
         else:
             regulation = worst(drop)
-        g.append(np.array([0.0 if _buildable(d) else 1.0 for d in designs]))
-        made = self._made(designs)
+        g.append(np.where(buildable, 0.0, 1.0))
         for k in range(len(s.nodes)):
             g.append(np.where(made[:, k], -1.0, 1.0))
-        ratios = table.ratios
-        known = [c for c in self.check_names]
+        known = self.check_names
         for name in known:
-            col = ratios[name].to_numpy(float) if name in ratios else np.full(count, np.nan)
+            col = ratios.get(name, np.full(count, np.nan))
             g.append(np.nan_to_num(col - 1.0, nan=-1.0))
-        others = [c for c in ratios.columns if c not in known]
+        others = [ratios[c] for c in ratios if c not in known]
         if others:
-            g.append(np.nan_to_num(worst(ratios[others].to_numpy(float)) - 1.0, nan=-1.0))
+            g.append(np.nan_to_num(worst(np.column_stack(others)) - 1.0, nan=-1.0))
         else:
             g.append(np.full(count, -1.0))
         G = np.column_stack(g)
-        G = np.where(np.isnan(G), 1e6, G)  # a failed figure is a failed constraint
-
-        lines = [self.parts_list(d) for d in designs]
-        cost = np.array([sum(line.cost for line in ls) for ls in lines])
-        stress = fr["rectifier_stress"].to_numpy(float)
-        F = np.column_stack([cost, regulation, stress])
-        F = np.where(np.isfinite(F), F, 1e6)
-        frame = self._frame(designs, lines, F, G, table)
-        return Scored(designs=list(designs), frame=frame, F=F, G=G, table=table)
+        return regulation, np.where(np.isnan(G), 1e6, G)  # a failed figure fails its constraint
 
     def _made(self, designs):
         out = np.zeros((len(designs), len(self.node_names)), bool)
