@@ -41,13 +41,16 @@ __all__ = ["CycleFigures", "path_line", "reservoir_cycle", "ladder_figures", "st
            "surge", "choke_overshoot", "downstream_capacitance"]
 
 #: Samples of the reservoir waveform over one half-cycle (for its harmonics and extremes).
-GRID = 64
+GRID = 48
+#: Harmonics of the reservoir's ripple carried down the ladder (each filter section takes them
+#: down by at least the first order, so the higher ones do not move a filtered node's p-p).
+HARMONICS = 12
 #: Samples over one conduction pulse (for the current's peak and RMS).
 PULSE_GRID = 24
 #: Newton iterations on the conduction start and length.
 NEWTON_ITERATIONS = 30
 #: Passes that refit the rectifier's linearised law to the pulse's peak current.
-FIT_PASSES = 3
+FIT_PASSES = 2
 #: Least leakage inductance taken (a path of none is first-order; this keeps one formula). [H]
 MIN_INDUCTANCE = 1e-6
 #: The rectifier's law is fitted from this fraction of the pulse's peak current up: the part of
@@ -136,6 +139,7 @@ class _Pulse:
         z = resistance + 1j * omega * self.L + 1.0 / (1j * omega * capacitance)
         self.ip = peak / z  # phasors: signal = Im(phasor * exp(j w t))
         self.vp = self.ip / (1j * omega * capacitance)
+        self.v_dc = -offset - resistance * load
         alpha = resistance / (2.0 * self.L)
         beta = np.sqrt(alpha ** 2 - 1.0 / (self.L * capacitance) + 0j)
         beta = np.where(np.abs(beta) < 1e-6 * alpha, 1e-6 * alpha, beta)
@@ -148,11 +152,14 @@ class _Pulse:
     def particular(self, t):
         """(i_p, v_p, di_p/dt, dv_p/dt) at times t (B,) or (B, K)."""
         c = self._col
-        rot = np.exp(1j * c(self.w, t) * t)
-        ip, vp = c(self.ip, t) * rot, c(self.vp, t) * rot
-        jw = 1j * c(self.w, t)
-        return (c(self.I0, t) + ip.imag, -c(self.V, t) - c(self.R, t) * c(self.I0, t) + vp.imag,
-                (jw * ip).imag, (jw * vp).imag)
+        w = c(self.w, t)
+        sin, cos = np.sin(w * t), np.cos(w * t)
+        ip_re, ip_im, vp_re, vp_im = (c(a, t) for a in (self.ip.real, self.ip.imag,
+                                                        self.vp.real, self.vp.imag))
+        # Im(P exp(j w t)) = Re(P) sin + Im(P) cos; its derivative w (Re(P) cos - Im(P) sin)
+        return (c(self.I0, t) + ip_re * sin + ip_im * cos,
+                c(self.v_dc, t) + vp_re * sin + vp_im * cos,
+                w * (ip_re * cos - ip_im * sin), w * (vp_re * cos - vp_im * sin))
 
     def flow(self, tau, y0, y1):
         """exp(A tau) applied to (y0, y1): the homogeneous solution."""
@@ -206,12 +213,13 @@ def _solve(p: _Pulse, half, t1, tc):
         step_t1 = (f1 * d2_tc - f2 * d1_tc) / det
         step_tc = (d1_t1 * f2 - d2_t1 * f1) / det
         limit = half / 8.0
-        step_t1 = np.clip(step_t1, -limit, limit)
-        step_tc = np.clip(step_tc, -limit, limit)
+        # a row that has converged keeps its values, so no row depends on the others
+        step_t1 = np.where(converged, 0.0, np.clip(step_t1, -limit, limit))
+        step_tc = np.where(converged, 0.0, np.clip(step_tc, -limit, limit))
         t1 = np.clip(t1 - step_t1, 0.0, 0.5 * half)
         tc = np.clip(tc - step_tc, 1e-4 * half, half)
         scale = np.maximum(p.E, 1.0)
-        converged = (np.abs(step_t1) < 1e-10 * half) & (np.abs(step_tc) < 1e-10 * half) & (
+        converged |= (np.abs(step_t1) < 1e-10 * half) & (np.abs(step_tc) < 1e-10 * half) & (
             np.abs(f2) < 1e-6 * scale)
         if converged.all():
             break
@@ -280,7 +288,8 @@ def reservoir_cycle(peak, frequency, resistance, inductance, capacitance, esr, l
                 peak, omega, r_total, v_eff, capacitance, load, half)
         t1, tc, converged = _solve(pulse, half, t1, tc)
         v1 = peak * np.sin(omega * t1) - v_eff
-        tau = tc[:, None] * np.linspace(0.0, 1.0, PULSE_GRID)[None, :]
+        last = _ == FIT_PASSES - 1
+        tau = tc[:, None] * np.linspace(0.0, 1.0, PULSE_GRID if last else 9)[None, :]
         i_pulse, v_pulse = pulse.state(t1, v1, tau)
         peak_i = np.maximum(i_pulse.max(axis=1), load)
         v_dc = np.maximum(v1 + 0.5 * (v_pulse.max(axis=1) - v1), 0.0)
@@ -391,7 +400,8 @@ def ladder_figures(reservoir_node, frequency, capacitance, esr, feed_resistance,
     """
     count, samples = reservoir_node.shape
     n = capacitance.shape[1]
-    spectrum = np.fft.rfft(reservoir_node - reservoir_node.mean(axis=1, keepdims=True), axis=1)
+    spectrum = np.fft.rfft(reservoir_node - reservoir_node.mean(axis=1, keepdims=True),
+                           axis=1)[:, :HARMONICS + 1]
     harmonic = np.arange(spectrum.shape[1])
     w = 2.0 * np.pi * 2.0 * frequency[:, None] * harmonic[None, :]
     w = np.where(harmonic[None, :] == 0, 1e-12, w)
@@ -518,7 +528,7 @@ def surge(peak, frequency, resistance, inductance, capacitance, esr,
     omega = 2.0 * np.pi * np.broadcast_to(np.asarray(frequency, float), peak.shape)
     half = np.pi / omega
     peak_i = peak / np.maximum(resistance + esr, 1e-3)
-    tau = half[:, None] * np.linspace(0.0, 1.0, 4 * PULSE_GRID)[None, :]
+    tau = half[:, None] * np.linspace(0.0, 1.0, 2 * PULSE_GRID)[None, :]
     for _ in range(2):
         offset, slope = path_line(elements, peak_i)
         pulse = _Pulse(peak, omega, resistance + slope + esr, inductance, offset, capacitance,

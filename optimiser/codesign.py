@@ -58,7 +58,7 @@ from .transformer import (
     design_population,
     load_transformer_data,
 )
-from .units import format_quantity
+from .units import format_quantity, round_significant
 
 __all__ = [
     "OBJECTIVES",
@@ -197,14 +197,6 @@ class FeedOption:
         if self.kind == "choke":
             return f"choke {self.choke}"
         return f"resistor {format_quantity(self.resistance, 'ohm')}"
-
-
-def _sig(value, digits=3):
-    """Round to significant figures, so that a design file holds exactly the value simulated."""
-    value = np.asarray(value, float)
-    safe = np.where(value == 0, 1.0, np.abs(value))
-    factor = 10.0 ** (digits - 1 - np.floor(np.log10(safe)))
-    return np.round(value * factor) / factor
 
 
 # --------------------------------------------------------------------------------------------
@@ -349,7 +341,7 @@ class CoDesign:
 
         return {
             "hv_voltage": self.voltage_grid[index(0, len(self.voltage_grid))],
-            "hv_current": _sig(10.0 ** X[:, 1], 3),
+            "hv_current": round_significant(10.0 ** X[:, 1], 3),
             "core_stack": index(2, len(self.core_stacks)),
             "current_density": self.density_grid[index(3, len(self.density_grid))],
             "rectifier": index(4, len(self.spec.choices.rectifiers)),
@@ -521,7 +513,8 @@ class CoDesign:
                     power = self._resistor_power(downstream[k] ** 2 * fo.resistance)
                     feed = Feed.model_construct(resistance=fo.resistance, inductance=0.0,
                                                 power_rating=power, current_rating=None)
-            esr = float(_sig(series.esr(c.capacitance[k], 2.0 * s.mains.frequency, rated), 3))
+            esr = float(round_significant(
+                series.esr(c.capacitance[k], 2.0 * s.mains.frequency, rated), 3))
             nodes.append(Node.model_construct(
                 name=ns.name, capacitance=c.capacitance[k], esr=esr, feed=feed,
                 load=Load.model_construct(current=None, resistance=None,
@@ -628,8 +621,32 @@ class CoDesign:
         sag = self.spec.sag
         return sag is not None and (sag.attack is not None or sag.recovery is not None)
 
+    @cached_property
+    def screen(self):
+        """The search's screening tier (:class:`optimiser.screening.Screen`)."""
+        from .screening import Screen
+
+        return Screen(self)
+
+    @property
+    def batch_independent(self) -> bool:
+        """Whether :meth:`evaluate` gives each row the same result in any batch (the screen
+        does; the full simulator's iterations can differ in the last digits)."""
+        return not self.needs_sag_dynamics
+
     def evaluate(self, X):
-        """Objectives and constraints of a population: (F (B, 3), G (B, M))."""
+        """Objectives and constraints of a population for the search: (F (B, 3), G (B, M)).
+
+        From the screening tier (:mod:`optimiser.screening`), unless the spec sets sag attack or
+        recovery windows: the screen has no sag transient, so then from the full assessment.
+        What the search keeps is re-assessed in full by :func:`optimise`.
+        """
+        if self.needs_sag_dynamics:
+            return self.evaluate_full(X)
+        return self.screen.evaluate(X)
+
+    def evaluate_full(self, X):
+        """Objectives and constraints of a population from the full assessment."""
         scored = self.score(self.designs(self.decode(X)))
         return scored.F, scored.G
 
@@ -866,13 +883,15 @@ class Optimisation:
     binding : CoDesign
     search : SearchResult
     scored : Scored
-        The final population's distinct designs.
+        The full assessment of the search's final population and its archive of the best
+        designs found on the way (distinct designs).
     front : ndarray of int
         Rows of ``scored`` that meet every constraint and are non-dominated, by cost.
     knee : int or None
         Row of ``scored`` recommended (the front's knee); None when the front is empty.
     unmet : tuple of Unmet
-        Constraints that no design evaluated during the search met.
+        Constraints that no design of the final assessment met (the search's final population
+        and the best designs it found on the way).
     """
 
     spec: Spec
@@ -938,11 +957,13 @@ def optimise(spec: Spec, *, population=None, generations=None, seed=None, worker
                         generations=generations or settings.generations,
                         seed=settings.seed if seed is None else seed,
                         workers=workers or settings.workers, progress=progress)
-    candidates = list(dict.fromkeys(binding.decode(result.X)))
+    # the search steered by the screen; what it kept is assessed in full, and only that counts
+    kept = np.vstack([result.X, result.archive]) if len(result.archive) else result.X
+    candidates = list(dict.fromkeys(binding.decode(kept)))
     scored = binding.score(binding.designs(candidates))
     front = reported_front(scored.F, scored.feasible, spec.search.resolution)
     knee = int(front[search.knee(scored.F[front])]) if len(front) else None
     unmet = tuple(Unmet(info, float(best)) for info, best in
-                  zip(binding.constraints, result.best_constraints) if best > 0)
+                  zip(binding.constraints, scored.G.min(axis=0)) if best > 0)
     return Optimisation(spec=spec, binding=binding, search=result, scored=scored, front=front,
                         knee=knee, unmet=unmet)

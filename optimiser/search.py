@@ -158,8 +158,11 @@ class VectorProblem(Problem):
     least value each constraint reached over the whole run (to say which could never be met).
     """
 
-    def __init__(self, definition, pool=None, workers=1, chunks=1):
+    def __init__(self, definition, pool=None, workers=1, chunks=1, archive_size=100):
         self.definition = definition
+        self.archive_size = archive_size
+        self.archive_X = np.empty((0, len(definition.variables)))
+        self.archive_F = np.empty((0, len(definition.objective_names)))
         self.variables = list(definition.variables)
         self.lower, self.upper, self.integer, xl, xu = _bounds(self.variables)
         self.n_constraints = len(definition.constraint_names)
@@ -199,6 +202,22 @@ class VectorProblem(Problem):
             G = np.asarray(G, float).reshape(len(x), self.n_constraints)
             out["G"] = G
             self.best_constraints = np.minimum(self.best_constraints, G.min(axis=0))
+        feasible = np.all(G <= 0, axis=1) if self.n_constraints else np.ones(len(x), bool)
+        self._archive(np.asarray(x, float)[feasible], F[feasible])
+
+    def _archive(self, X, F):
+        """Keep the feasible non-dominated designs seen so far (at most ``archive_size``,
+        evenly spread in the first objective)."""
+        if not len(X):
+            return
+        X = np.vstack([self.archive_X, X])
+        F = np.vstack([self.archive_F, F])
+        keep = non_dominated(F)
+        keep = keep[np.argsort(F[keep, 0], kind="stable")]
+        if len(keep) > self.archive_size:
+            keep = keep[np.unique(np.linspace(0, len(keep) - 1, self.archive_size).round()
+                                  .astype(int))]
+        self.archive_X, self.archive_F = X[keep], F[keep]
 
 
 @dataclass(frozen=True)
@@ -214,6 +233,9 @@ class SearchResult:
         Rows of the final population that are feasible and non-dominated.
     best_constraints : ndarray
         Least value each constraint reached over every evaluation of the run.
+    archive : ndarray
+        The feasible non-dominated designs of the whole run (rows of the encoding), at most a
+        population's worth: the best found on the way, which the final population may have lost.
     evaluations : int
     generations : int
     seed : int
@@ -232,6 +254,7 @@ class SearchResult:
     feasible: np.ndarray
     front: np.ndarray
     best_constraints: np.ndarray
+    archive: np.ndarray
     evaluations: int
     generations: int
     seed: int
@@ -334,7 +357,10 @@ def run(definition, population=100, generations=40, seed=1, workers=1, progress=
         Processes to evaluate the population in (1: in this process).
     chunks : int, optional
         Pieces each population is evaluated in; default ``max(2, workers)``. The front for a
-        seed is reproducible for a given number of chunks, however many workers run them.
+        seed is reproducible for a given number of chunks, however many workers run them. A
+        definition with ``batch_independent = True`` (each row's result the same in any batch)
+        is evaluated whole, in this process: splitting it cannot change the front, and sending
+        it to workers would cost more than it saves.
     progress : bool
         Show a progress bar on stderr (the caller decides; e.g. only on a terminal).
     initial : ndarray, optional
@@ -348,6 +374,8 @@ def run(definition, population=100, generations=40, seed=1, workers=1, progress=
     from pymoo.optimize import minimize
 
     start = time.perf_counter()
+    if getattr(definition, "batch_independent", False):
+        workers, chunks = 1, 1
     pool = ProcessPoolExecutor(max_workers=workers, initializer=_worker_init,
                                initargs=(definition,)) if workers > 1 else None
     bar = None
@@ -357,7 +385,7 @@ def run(definition, population=100, generations=40, seed=1, workers=1, progress=
             # process that runs threads can deadlock)
             list(pool.map(_worker_ready, range(workers)))
         problem = VectorProblem(definition, pool=pool, workers=workers,
-                                chunks=chunks or max(2, workers))
+                                chunks=chunks or max(2, workers), archive_size=population)
         repair = IntegerRepair(problem.variables)
         kwargs = {}
         if initial is not None:
@@ -386,6 +414,7 @@ def run(definition, population=100, generations=40, seed=1, workers=1, progress=
     feasible = np.all(G <= 0, axis=1) if n_constr else np.ones(len(X), bool)
     return SearchResult(X=X, F=F, G=G, feasible=feasible, front=non_dominated(F, feasible),
                         best_constraints=problem.best_constraints.copy(),
+                        archive=problem.archive_X.copy(),
                         evaluations=problem.evaluations, generations=generations, seed=seed,
                         physics_time=problem.physics_time,
                         total_time=time.perf_counter() - start, history=history)

@@ -10,9 +10,11 @@ from __future__ import annotations
 
 import math
 import re
+
+import numpy as np
 from functools import lru_cache
 
-__all__ = ["UnitError", "parse_quantity", "format_quantity", "DIMENSIONS"]
+__all__ = ["UnitError", "parse_quantity", "format_quantity", "round_significant", "DIMENSIONS"]
 
 
 class UnitError(ValueError):
@@ -178,3 +180,11 @@ def format_quantity(value: float, unit: str, digits: int = 3) -> str:
     if "e" in text:
         text = f"{shown:.{digits}f}".rstrip("0").rstrip(".")
     return f"{text} {prefix}{unit}"
+
+
+def round_significant(value, digits=3):
+    """Round to significant figures (arrays too), so that a file holds exactly the value used."""
+    value = np.asarray(value, float)
+    safe = np.where(value == 0, 1.0, np.abs(value))
+    factor = 10.0 ** (digits - 1 - np.floor(np.log10(safe)))
+    return np.round(value * factor) / factor
