@@ -50,9 +50,7 @@ PULSE_GRID = 24
 #: Newton iterations on the conduction start and length.
 NEWTON_ITERATIONS = 30
 #: Passes that refit the rectifier's linearised law to the pulse's peak current.
-FIT_PASSES = 2
-#: Least leakage inductance taken (a path of none is first-order; this keeps one formula). [H]
-MIN_INDUCTANCE = 1e-6
+FIT_PASSES = 3
 #: The rectifier's law is fitted from this fraction of the pulse's peak current up: the part of
 #: the pulse that carries most of its charge and sets its peak (chosen against the simulator,
 #: tests/test_analytic.py). [-]
@@ -134,7 +132,10 @@ class _Pulse:
 
     def __init__(self, peak, omega, resistance, inductance, offset, capacitance, load):
         self.E, self.w, self.R, self.C, self.I0 = peak, omega, resistance, capacitance, load
-        self.L = np.maximum(inductance, MIN_INDUCTANCE)
+        # no leakage at all: a first-order path, taken as a second-order one far over-damped
+        # (damping ratio >= 4) and fast (L/R <= 1 us), which leaves the pulse as it is
+        self.L = np.where(inductance > 0, inductance,
+                          np.minimum(resistance ** 2 * capacitance / 64.0, resistance * 1e-6))
         self.V = offset
         z = resistance + 1j * omega * self.L + 1.0 / (1j * omega * capacitance)
         self.ip = peak / z  # phasors: signal = Im(phasor * exp(j w t))
@@ -174,12 +175,12 @@ class _Pulse:
         out1 = (e1 * (a1 - l2 * y1) - e2 * (a1 - l1 * y1)) / (l1 - l2)
         return out0.real, out1.real
 
-    def state(self, t1, v1, tau):
-        """(i, v) at t1 + tau from (0, v1) at t1; tau (B,) or (B, K)."""
+    def state(self, t1, v1, tau, i1=0.0):
+        """(i, v) at t1 + tau from (i1, v1) at t1; tau (B,) or (B, K)."""
         ip1, vp1, _, _ = self.particular(t1)
         t = (t1 if np.ndim(tau) == 1 else t1[:, None]) + tau
         ip, vp, _, _ = self.particular(t)
-        h0, h1 = self.flow(tau, -ip1, v1 - vp1)
+        h0, h1 = self.flow(tau, i1 - ip1, v1 - vp1)
         return ip + h0, vp + h1
 
     def slope(self, t, i, v):
@@ -292,7 +293,14 @@ def reservoir_cycle(peak, frequency, resistance, inductance, capacitance, esr, l
         tau = tc[:, None] * np.linspace(0.0, 1.0, PULSE_GRID if last else 9)[None, :]
         i_pulse, v_pulse = pulse.state(t1, v1, tau)
         peak_i = np.maximum(i_pulse.max(axis=1), load)
-        v_dc = np.maximum(v1 + 0.5 * (v_pulse.max(axis=1) - v1), 0.0)
+        # the pass's DC (pulse, then the linear fall), and the resistive load it implies: on
+        # the line from the open-circuit crest through this point, V = E - R_o I
+        v_end = v_pulse[:, -1]
+        v_mean = (tc * v_pulse.mean(axis=1)
+                  + (half - tc) * (v_end - 0.5 * load / capacitance * (half - tc))) / half
+        r_out = np.maximum(peak - v_mean, 0.0) / load
+        current = (constant + conductance * peak) / (1.0 + conductance * r_out)
+        v_dc = np.maximum(peak - r_out * current, 0.0)
     # the half-cycle on a uniform grid from the start: the pulse, then a linear discharge
     grid = half[:, None] * np.arange(GRID)[None, :] / GRID
     on = grid < tc[:, None]
@@ -318,7 +326,7 @@ def reservoir_cycle(peak, frequency, resistance, inductance, capacitance, esr, l
     h = tc / (PULSE_GRID - 1)
     integral = h * (sq.sum(axis=1) - 0.5 * (sq[:, 0] + sq[:, -1]))
     single = (i_pulse[:, 1:-1] < -1e-6 * peak_i[:, None]).any(axis=1)
-    ok = converged & ~single & (tc < 0.98 * half)
+    ok = converged & ~single & (tc < 0.9 * half)
     return CycleFigures(start=t1, length=tc, converged=ok, node=node, source=source,
                         terminal=terminal, current=all_i, rectifier_node=rect_node,
                         peak_current=peak_i, mean_square_current=integral / half)
@@ -454,19 +462,31 @@ def steady_state(values, elements: rectifier.PathElements, peak, frequency, topo
     count, n = v.capacitance.shape
     frequency = np.broadcast_to(np.asarray(frequency, float), (count,))
     extra, damping = downstream_capacitance(frequency, v.capacitance, v.esr, v.feed_resistance,
-                                   v.feed_inductance, v.load_conductance)
+                                            v.feed_inductance, v.load_conductance)
+    # the DC ladder is linear: what each node and everything after it draws is a + b V of the
+    # voltage feeding it (from the far end), so the reservoir sees a + b V and the rest follows
+    a = np.zeros((count, n))
+    b = np.zeros((count, n))
+    after_a, after_b = np.zeros(count), np.zeros(count)
+    for k in range(n - 1, 0, -1):
+        c_k = v.load_current[:, k] + after_a
+        g_k = v.load_conductance[:, k] + after_b
+        denominator = 1.0 + v.feed_resistance[:, k] * g_k
+        a[:, k], b[:, k] = c_k / denominator, g_k / denominator
+        after_a, after_b = a[:, k], b[:, k]
     cycle = reservoir_cycle(peak, frequency, v.path_resistance, v.path_inductance,
-                            v.capacitance[:, 0] + extra, v.esr[:, 0], v.load_current.sum(axis=1),
-                            elements, conductance=v.load_conductance.sum(axis=1))
+                            v.capacitance[:, 0] + extra, v.esr[:, 0],
+                            v.load_current[:, 0] + after_a, elements,
+                            conductance=v.load_conductance[:, 0] + after_b)
     dc = np.empty((count, n))
     dc[:, 0] = cycle.node.mean(axis=1)
     reservoir = dc[:, :1] + damping[:, None] * (cycle.node - dc[:, :1])
-    dc[:, 1:] = dc[:, :1]
-    for _ in range(3):  # bleeder currents at the node voltages they see
-        load = v.load_current + v.load_conductance * dc
-        downstream = np.cumsum(load[:, ::-1], axis=1)[:, ::-1]
-        for k in range(1, n):
-            dc[:, k] = dc[:, k - 1] - v.feed_resistance[:, k] * downstream[:, k]
+    downstream = np.empty((count, n))
+    downstream[:, 0] = v.load_current[:, 0] + v.load_conductance[:, 0] * dc[:, 0] + after_a \
+        + after_b * dc[:, 0]
+    for k in range(1, n):
+        downstream[:, k] = a[:, k] + b[:, k] * dc[:, k - 1]
+        dc[:, k] = dc[:, k - 1] - v.feed_resistance[:, k] * downstream[:, k]
     node, cap_i, feed_ac = ladder_figures(reservoir, frequency,
                                           v.capacitance, v.esr, v.feed_resistance,
                                           v.feed_inductance, v.load_conductance, dc)
@@ -518,29 +538,37 @@ def surge(peak, frequency, resistance, inductance, capacitance, esr,
           elements: rectifier.PathElements):
     """Switch-on at the mains crest into an empty reservoir: peak current and capacitor voltage.
 
-    The same closed form as the steady state, from rest at the crest, over the first pulse.
+    The same closed form as the steady state, from rest at the crest: the rest of that
+    half-cycle, then (a full-wave rectifier hands the current to the other path as the EMF
+    reverses) the next half-cycle from where the first left off, until the current stops.
 
     Returns
     -------
     (current, voltage) : ndarray (B,), ndarray (B,)
-        Peak path current and the highest reservoir voltage of the first pulse. [A], [V]
+        Peak path current and the highest reservoir voltage over those. [A], [V]
     """
     omega = 2.0 * np.pi * np.broadcast_to(np.asarray(frequency, float), peak.shape)
     half = np.pi / omega
     peak_i = peak / np.maximum(resistance + esr, 1e-3)
-    tau = half[:, None] * np.linspace(0.0, 1.0, 2 * PULSE_GRID)[None, :]
+    zero = np.zeros_like(peak)
     for _ in range(2):
         offset, slope = path_line(elements, peak_i)
         pulse = _Pulse(peak, omega, resistance + slope + esr, inductance, offset, capacitance,
-                       np.zeros_like(peak))
-        t0 = 0.5 * half
-        i, v = pulse.state(t0, np.zeros_like(peak), tau)
-        # up to the pulse's end (the first sample where the current would reverse)
-        ended = np.cumsum(i < 0.0, axis=1) > 0
-        i = np.where(ended, 0.0, i)
-        v = np.where(ended, -np.inf, v)
-        peak_i = i.max(axis=1)
-    return peak_i, v.max(axis=1)
+                       zero)
+        # first the quarter cycle from the crest, then a whole half-cycle
+        first = 0.5 * half[:, None] * np.linspace(0.0, 1.0, PULSE_GRID)[None, :]
+        i_a, v_a = pulse.state(0.5 * half, zero, first)
+        i_b, v_b = pulse.state(zero, v_a[:, -1], half[:, None] * np.linspace(
+            0.0, 1.0, 2 * PULSE_GRID)[None, :], i1=i_a[:, -1])
+        i = np.concatenate([i_a, i_b[:, 1:]], axis=1)
+        v = np.concatenate([v_a, v_b[:, 1:]], axis=1)
+        # up to the pulse's end (the first sample where the current would reverse; the first
+        # sample is the rest it starts from)
+        reversed_ = i < 0.0
+        reversed_[:, 0] = False
+        ended = np.cumsum(reversed_, axis=1) > 0
+        peak_i = np.where(ended, 0.0, i).max(axis=1)
+    return peak_i, np.where(ended, -np.inf, v).max(axis=1)
 
 
 def choke_overshoot(inductance, resistance, capacitance, rise_time):

@@ -32,6 +32,15 @@ from .units import round_significant
 
 __all__ = ["Screen"]
 
+#: Designs of a random sample assessed both ways when a screen is made, to measure how far the
+#: screen is from the full assessment on this spec's own design space.
+CALIBRATION_SAMPLE = 96
+#: Share of the sample's designs near a limit that the eased screen lets through where the full
+#: assessment would (the quantile of the screen's excess over the full value). [-]
+CALIBRATION_QUANTILE = 0.5
+#: Least number of the sample's designs near a limit needed to measure a constraint; with
+#: fewer, the screen is not eased for it.
+CALIBRATION_MINIMUM = 8
 #: Corners the constraints read: (name, mains at its high corner, capacitors at high tolerance,
 #: loads).
 CORNERS = (("nominal_idle", False, "idle"), ("nominal_full", False, "full"),
@@ -120,6 +129,26 @@ class Screen:
                                     for p in self.class_power])
         self.bleeder_values = np.sort(parts.e_series("E12", range(2, 8)))
         self._transformers = {}
+        self.slack = np.zeros(len(binding.constraints))
+        self.slack = self._calibrate()
+
+    def _calibrate(self):
+        """How much to ease each constraint: on a random sample assessed both ways, the
+        :data:`CALIBRATION_QUANTILE` of the screen's excess over the full assessment among the
+        designs within one allowance of the limit (0 where the screen is not conservative or
+        too few designs are near the limit)."""
+        from .search import random_population
+
+        X = random_population(self.b.variables, CALIBRATION_SAMPLE, seed=0)
+        G_screen = self.evaluate(X)[1]
+        G_full = self.b.evaluate_full(X)[1]
+        slack = np.zeros(G_full.shape[1])
+        for j in range(G_full.shape[1]):
+            near = (np.abs(G_full[:, j]) < 1.0) & (np.abs(G_screen[:, j]) < 1e5)
+            if near.sum() >= CALIBRATION_MINIMUM:
+                excess = G_screen[near, j] - G_full[near, j]
+                slack[j] = max(float(np.quantile(excess, CALIBRATION_QUANTILE)), 0.0)
+        return slack
 
     # ------------------------------------------------------------------ fixed choices
 
@@ -207,8 +236,8 @@ class Screen:
     # ------------------------------------------------------------------ evaluation
 
     def evaluate(self, X):
-        """(F (B, 3), G (B, M)) of a population matrix, as :meth:`CoDesign.evaluate` gives
-        them from the full assessment."""
+        """(F (B, 3), G (B, M)) of a population matrix: the objectives and constraints of the
+        full assessment, estimated, each constraint eased by its :data:`SLACK`."""
         b, s, n = self.b, self.spec, self.n
         choice = b.choices(X)
         count = len(choice["rectifier"])
@@ -323,7 +352,7 @@ class Screen:
         none = np.full((count, 1), np.nan)
         figures["attack_time"] = figures["recovery_time"] = none
         regulation, G = b.constraint_values(figures, tr["buildable"], cap["made"], by_design)
-        return b.objective_values(cost, regulation, stress), G
+        return b.objective_values(cost, regulation, stress), G - self.slack
 
     def _checks(self, owner, position, f, tr, cap, choice, crest, surge_i, steady_peak, charge,
                 discharge, bleeder, bleeder_power, feed_power, feed_current, feed_l, feed_r,
