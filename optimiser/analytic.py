@@ -240,7 +240,7 @@ def _first_guess(peak, omega, resistance, offset, capacitance, load, half):
 
 
 def reservoir_cycle(peak, frequency, resistance, inductance, capacitance, esr, load,
-                    elements: rectifier.PathElements, guess=None, conductance=None):
+                    elements: rectifier.PathElements, conductance=None):
     """Periodic steady state of the rectifier and reservoir of full-wave supplies.
 
     Parameters
@@ -259,8 +259,6 @@ def reservoir_cycle(peak, frequency, resistance, inductance, capacitance, esr, l
     conductance : ndarray (B,), optional
         Resistive load (bleeders) on the supply, taken at the reservoir's DC voltage (refined
         pass by pass). [S]
-    guess : (ndarray, ndarray), optional
-        Conduction start and length to begin from (e.g. a neighbouring corner's). [s]
 
     Returns
     -------
@@ -285,8 +283,7 @@ def reservoir_cycle(peak, frequency, resistance, inductance, capacitance, esr, l
         v_eff = offset - esr * load
         pulse = _Pulse(peak, omega, r_total, inductance, v_eff, capacitance, load)
         if t1 is None:
-            t1, tc = guess if guess is not None else _first_guess(
-                peak, omega, r_total, v_eff, capacitance, load, half)
+            t1, tc = _first_guess(peak, omega, r_total, v_eff, capacitance, load, half)
         t1, tc, converged = _solve(pulse, half, t1, tc)
         v1 = peak * np.sin(omega * t1) - v_eff
         last = _ == FIT_PASSES - 1

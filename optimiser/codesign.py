@@ -5,7 +5,10 @@ A population matrix ``X`` (one row per candidate; integer columns hold indices) 
 physical transformer of the whole population designed in one vectorised call of
 :func:`optimiser.transformer.design_population`), assessed by
 :func:`optimiser.assessment.assess_many` (mains and tolerance corners, sag step, switch-on, every
-rating) and priced by :mod:`optimiser.bill`. The result is scored:
+rating) and priced by :mod:`optimiser.bill` (:meth:`CoDesign.score`). During the search the same
+objectives and constraints come from a screening tier, :mod:`optimiser.screening`, many times
+faster; :func:`optimise` assesses what the search kept in full, and only that is reported. The
+result is scored:
 
 - objectives ``F`` = [cost, regulation, rectifier_stress], all minimised: cost in cost units;
   regulation the distance of the static sag from its target (or the sag itself when the spec

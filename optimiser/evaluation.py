@@ -208,23 +208,29 @@ class Batch:
 def _path_elements(design: Design) -> dict:
     """Per-path element counts and parameters of one design (parts resolved from the catalogue)."""
     r = design.rectifier
-    valve = _valve_perveance(r.valve) if r.valve is not None else 1.0
-    if r.topology == "bridge":
+    return path_elements_of(r.topology, r.diode, r.valve)
+
+
+def path_elements_of(topology, diode, valve) -> dict:
+    """Per-path element counts and parameters of a rectifier: its topology and its diode and
+    valve (part names or models; None where it has none)."""
+    perveance = _valve_perveance(valve) if valve is not None else 1.0
+    if topology == "bridge":
         si, vv = 2, 0
-    elif r.topology == "hybrid-bridge":
+    elif topology == "hybrid-bridge":
         si, vv = 1, 1
-    elif r.valve is not None:
+    elif valve is not None:
         si, vv = 0, 1
     else:
         si, vv = 1, 0
-    diode = _diode_model(r.diode) if si else None
+    model = _diode_model(diode) if si else None
     return {
         "silicon_count": si,
         "valve_count": vv,
-        "saturation_current": diode.saturation_current if diode else 1e-9,
-        "emission_coefficient": diode.emission_coefficient if diode else 1.0,
-        "series_resistance": diode.series_resistance if diode else 0.0,
-        "perveance": valve,
+        "saturation_current": model.saturation_current if model else 1e-9,
+        "emission_coefficient": model.emission_coefficient if model else 1.0,
+        "series_resistance": model.series_resistance if model else 0.0,
+        "perveance": perveance,
     }
 
 

@@ -16,9 +16,15 @@ constraints, column for column, from the same choices, with
   own bleeder,
 - prices from per-choice tables filled once from :mod:`optimiser.bill`.
 
+Where the screen's figures differ from the full assessment's, they lean to the cautious side
+(more ripple, a larger surge): left alone, that would steer the search away from designs that
+sit at a limit. So when a screen is made it measures itself: a random sample of the spec's
+designs is assessed both ways, and each constraint is eased by the screen's typical excess
+over the full value near its limit (:meth:`Screen._calibrate`).
+
 What the search keeps is then assessed in full (:func:`optimiser.codesign.optimise`); the
-screen only steers. ``tests/test_screening.py`` measures how closely it agrees with the full
-score.
+screen only steers. ``tests/test_analytic.py`` and ``tests/test_screening.py`` measure how
+closely it agrees with the simulator and the full assessment.
 """
 
 from __future__ import annotations
@@ -26,7 +32,9 @@ from __future__ import annotations
 import numpy as np
 
 from . import analytic, bill, ladder, parts, ratings
-from .evaluation import DEFAULT_DIODE, LEAKAGE_CONDUCTANCE, MIN_PATH_RESISTANCE, _path_elements
+from .codesign import BLEEDER_SERIES
+from .design import Feed
+from .evaluation import DEFAULT_DIODE, LEAKAGE_CONDUCTANCE, MIN_PATH_RESISTANCE, path_elements_of
 from .rectifier import PathElements
 from .units import round_significant
 
@@ -66,9 +74,7 @@ class _Position:
         self.valve = parts.find_part("valve", valve) if valve else None
         silicon = topology != "centre-tap" or valve is None
         self.diode = parts.find_part("diode", diode or DEFAULT_DIODE) if silicon else None
-        probe = type("Probe", (), {})()
-        probe.rectifier = type("R", (), {"topology": topology, "diode": diode, "valve": valve})()
-        self.elements = _path_elements(probe)
+        self.elements = path_elements_of(topology, diode, valve)
 
 
 class Screen:
@@ -110,8 +116,6 @@ class Screen:
             rows = []
             for fo in binding.feed_options[k]:
                 if fo.kind == "choke":
-                    from .design import Feed
-
                     cost = bill._choke_line("", Feed.model_construct(
                         resistance=fo.resistance, inductance=fo.inductance, power_rating=None,
                         current_rating=fo.current_rating)).cost
@@ -127,9 +131,8 @@ class Screen:
         self.class_derated = np.array([c.power_at(s.ambient) for c in classes])
         self.class_cost = np.array([bill._resistor_line("", 1.0, p, s.ambient).cost
                                     for p in self.class_power])
-        self.bleeder_values = np.sort(parts.e_series("E12", range(2, 8)))
+        self.bleeder_values = np.sort(parts.e_series(BLEEDER_SERIES, range(2, 8)))
         self._transformers = {}
-        self.slack = np.zeros(len(binding.constraints))
         self.slack = self._calibrate()
 
     def _calibrate(self):
@@ -140,7 +143,7 @@ class Screen:
         from .search import random_population
 
         X = random_population(self.b.variables, CALIBRATION_SAMPLE, seed=0)
-        G_screen = self.evaluate(X)[1]
+        G_screen = self._score(X)[1]
         G_full = self.b.evaluate_full(X)[1]
         slack = np.zeros(G_full.shape[1])
         for j in range(G_full.shape[1]):
@@ -237,7 +240,17 @@ class Screen:
 
     def evaluate(self, X):
         """(F (B, 3), G (B, M)) of a population matrix: the objectives and constraints of the
-        full assessment, estimated, each constraint eased by its :data:`SLACK`."""
+        full assessment, estimated, each constraint eased by the error measured when the screen
+        was made (:meth:`_calibrate`)."""
+        F, G, _ = self._score(X)
+        return F, G - self.slack
+
+    def check_ratio_names(self, X):
+        """Names of the check ratios the screen computes for a population."""
+        return list(self._score(X)[2])
+
+    def _score(self, X):
+        """(F, G uneased, check ratios per design by name) of a population matrix."""
         b, s, n = self.b, self.spec, self.n
         choice = b.choices(X)
         count = len(choice["rectifier"])
@@ -352,7 +365,7 @@ class Screen:
         none = np.full((count, 1), np.nan)
         figures["attack_time"] = figures["recovery_time"] = none
         regulation, G = b.constraint_values(figures, tr["buildable"], cap["made"], by_design)
-        return b.objective_values(cost, regulation, stress), G - self.slack
+        return b.objective_values(cost, regulation, stress), G, by_design
 
     def _checks(self, owner, position, f, tr, cap, choice, crest, surge_i, steady_peak, charge,
                 discharge, bleeder, bleeder_power, feed_power, feed_current, feed_l, feed_r,

@@ -79,3 +79,10 @@ def test_the_front_holds_only_designs_the_full_assessment_passes():
     # most of what the screen kept is feasible in full too (the screen is eased only by its
     # measured error)
     assert np.mean(np.all(G <= 0, axis=1)) > 0.5
+
+
+def test_the_screen_has_every_check_the_assessment_has(binding):
+    # a check added to the assessment but not to the screen would pass unseen in the search
+    # (the full assessment would still catch it at the end, but the search would not steer)
+    X = random_population(binding.variables, 30, seed=9)
+    assert set(binding.check_names) <= set(binding.screen.check_ratio_names(X))
