@@ -339,7 +339,7 @@ def _make_callback(objective_names, history, bar):
     return _Watch()
 
 
-def run(definition, population=100, generations=40, seed=1, workers=1, progress=False,
+def run(definition, population=100, generations=100, seed=1, workers=1, progress=False,
         initial=None, chunks=None) -> SearchResult:
     """Search a definition with NSGA-II for a fixed number of generations.
 

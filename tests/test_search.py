@@ -381,6 +381,10 @@ def test_switchable_pair_is_scored_and_round_trips_through_its_design_file(tmp_p
     X[:, 4] = 2  # the switchable option
     scored = binding.score(binding.designs(binding.decode(X)))
     assert (scored.frame["cost.hardware"] > 0).all()  # the changeover switch is priced
+    # the search's screen prices the pair alike and names its checks per position
+    F_screen, _ = binding.screen.evaluate(X)
+    np.testing.assert_allclose(F_screen[:, 0], scored.F[:, 0], rtol=1e-9)
+    assert any(n.startswith("valve/") for n in binding.screen.check_ratio_names(X))
     files = []
     for i, design in enumerate(scored.designs):
         files.append(write(tmp_path / f"d{i}.yaml", design_yaml(design)))
