@@ -353,8 +353,8 @@ class CoDesign:
                 for k in range(n)]),
             "rating_steps": np.column_stack([index(5 + n + k, RATING_CHOICES)
                                              for k in range(n)]),
-            "feeds": np.column_stack([index(5 + 2 * n + k - 1, len(self.feed_options[k]))
-                                      for k in range(1, n)]).reshape(len(X), n - 1),
+            "feeds": np.array([index(5 + 2 * n + k - 1, len(self.feed_options[k]))
+                               for k in range(1, n)], int).reshape(n - 1, len(X)).T,
         }
 
     def decode(self, X) -> list[Candidate]:

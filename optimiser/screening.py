@@ -108,6 +108,26 @@ class Screen:
                 self.positions.append([_Position(None, option.topology, option.diode,
                                                  option.valve)])
         self.n_positions = np.array([len(p) for p in self.positions])
+        flat = [p for ps in self.positions for p in ps]
+        self.first_position = np.concatenate([[0], np.cumsum(self.n_positions)[:-1]])
+        self.flat_positions = flat
+        self.position_elements = {f: np.array([p.elements[f] for p in flat], float)
+                                  for f in PathElements.__dataclass_fields__}
+        self.position_topology = np.array([p.topology for p in flat])
+        self.position_prefix = np.array([p.name or "" for p in flat])
+        self.has_valve = np.array([p.valve is not None for p in flat])
+        self.has_diode = np.array([p.diode is not None for p in flat])
+        self.position_rating = {
+            (kind, attr): np.array([np.nan if getattr(p, kind) is None
+                                    or getattr(getattr(p, kind), attr, None) is None
+                                    else getattr(getattr(p, kind), attr) for p in flat], float)
+            for kind, attrs in (("valve", ("max_input_capacitance", "max_peak_current",
+                                           "max_piv", "max_dc_current",
+                                           "max_plate_voltage_rms")),
+                                ("diode", ("v_rrm", "i_fsm", "i_f_avg")))
+            for attr in attrs}
+        options = s.choices.rectifiers
+        self.option_key = [(o.centre_tapped, binding.rectifier_heater(o)) for o in options]
         self.rectifier_cost = self._rectifier_costs()
         # feeds: values, ratings and prices per option
         self.feed = []
@@ -212,10 +232,7 @@ class Screen:
         """Transformer arrays per design, each distinct transformer designed once per run."""
         keys = list(zip(choice["core_stack"].tolist(), choice["hv_voltage"].tolist(),
                         choice["hv_current"].tolist(), choice["current_density"].tolist(),
-                        [self.b.spec.choices.rectifiers[r].centre_tapped
-                         for r in choice["rectifier"]],
-                        [self.b.rectifier_heater(self.b.spec.choices.rectifiers[r])
-                         for r in choice["rectifier"]]))
+                        [self.option_key[r] for r in choice["rectifier"].tolist()]))
         new = [k for k in dict.fromkeys(keys) if k not in self._transformers]
         if new:
             first = {k: i for i, k in reversed(list(enumerate(keys)))}
@@ -285,16 +302,13 @@ class Screen:
                 + self.class_cost[bleeder_class].sum(axis=1))
 
         # one row per design and switch position, all corners in one call
-        owner, position = [], []
-        for d in range(count):
-            for p in self.positions[choice["rectifier"][d]]:
-                owner.append(d)
-                position.append(p)
-        owner = np.array(owner)
+        counts = self.n_positions[choice["rectifier"]]
+        owner = np.repeat(np.arange(count), counts)
         rows = len(owner)
-        el = {f: np.array([p.elements[f] for p in position], float)
-              for f in PathElements.__dataclass_fields__}
-        topology = np.array([p.topology for p in position])
+        within = np.arange(rows) - np.repeat(np.cumsum(counts) - counts, counts)
+        position = self.first_position[choice["rectifier"]][owner] + within
+        el = {f: v[position] for f, v in self.position_elements.items()}
+        topology = self.position_topology[position]
         r_w = tr["hv_series_resistance"][owner]
         l_w = tr["hv_leakage_inductance"][owner]
         corner_values, corner_peak = [], []
@@ -353,15 +367,15 @@ class Screen:
         figures = {}
         for k, ns in enumerate(s.nodes):
             figures[f"{ns.name}.idle_voltage"] = _spread(f["nominal_idle"]["dc_voltage"][:, k],
-                                                         owner, count, failed)
+                                                         owner, within, count, failed)
             figures[f"{ns.name}.full_power_voltage"] = _spread(
-                f["nominal_full"]["dc_voltage"][:, k], owner, count, failed)
+                f["nominal_full"]["dc_voltage"][:, k], owner, within, count, failed)
             figures[f"{ns.name}.ripple_pp"] = _spread(f["nominal_full"]["ripple_pp"][:, k],
-                                                      owner, count, failed)
+                                                      owner, within, count, failed)
         k = s.sag_node
         idle_v = f["nominal_idle"]["dc_voltage"][:, k]
         full_v = f["nominal_full"]["dc_voltage"][:, k]
-        figures["static_drop"] = _spread((idle_v - full_v) / idle_v, owner, count, failed)
+        figures["static_drop"] = _spread((idle_v - full_v) / idle_v, owner, within, count, failed)
         none = np.full((count, 1), np.nan)
         figures["attack_time"] = figures["recovery_time"] = none
         regulation, G = b.constraint_values(figures, tr["buildable"], cap["made"], by_design)
@@ -381,13 +395,10 @@ class Screen:
             minimum, []).ratio
 
         def part(attr, kind):
-            return np.array([getattr(getattr(p, kind), attr, None)
-                             if getattr(p, kind) is not None
-                             and getattr(getattr(p, kind), attr, None) is not None else np.nan
-                             for p in position], float)
+            return self.position_rating[(kind, attr)][position]
 
-        has_valve = np.array([p.valve is not None for p in position])
-        has_diode = np.array([p.diode is not None for p in position])
+        has_valve = self.has_valve[position]
+        has_diode = self.has_diode[position]
         only = lambda mask, v: np.where(mask, v, np.nan)  # noqa: E731
         worst_piv = np.maximum(hn["piv"], hf["piv"])
         v_oc = tr["hv_open_circuit_voltage"][owner]
@@ -413,9 +424,11 @@ class Screen:
         impedance = np.hypot(tr["hv_series_resistance"][owner],
                              2 * np.pi * self.frequency * tr["hv_leakage_inductance"][owner])
         min_z = np.full(rows, np.nan)
-        for i, p in enumerate(position):
-            if p.valve is not None and p.valve.min_plate_impedance:
-                min_z[i] = p.valve.min_plate_impedance_at(v_oc[i])
+        for i in np.unique(position):
+            valve = self.flat_positions[i].valve
+            if valve is not None and valve.min_plate_impedance:
+                at = position == i
+                min_z[at] = valve.min_plate_impedance_at(v_oc[at])
         out["valve.plate_supply_impedance"] = (col(only(has_valve, impedance), min_z, True),
                                                True)
         t = {k: tr[k][owner] for k in tr}
@@ -446,7 +459,7 @@ class Screen:
                                                          cond.discharge_time_limit), False)
         # a switchable pair's checks carry their position's name
         named = {}
-        prefixes = np.array([p.name or "" for p in position])
+        prefixes = self.position_prefix[position]
         for name, (values, rectifier_check) in out.items():
             for prefix in np.unique(prefixes):
                 mask = prefixes == prefix
@@ -462,13 +475,9 @@ def _per_design(values, owner, count):
     return np.where(np.isneginf(out), np.nan, out)
 
 
-def _spread(values, owner, count, failed):
-    """A row figure as (B, P): one column per switch position, NaN where a design has fewer
-    positions or the screen failed."""
-    values = np.where(failed, np.nan, values)
-    slot = np.zeros(len(owner), int)
-    for i in range(1, len(owner)):
-        slot[i] = slot[i - 1] + 1 if owner[i] == owner[i - 1] else 0
+def _spread(values, owner, slot, count, failed):
+    """A row figure as (B, P): one column per switch position (``slot``), NaN where a design
+    has fewer positions or the screen failed."""
     out = np.full((count, slot.max() + 1 if len(slot) else 1), np.nan)
-    out[owner, slot] = values
+    out[owner, slot] = np.where(failed, np.nan, values)
     return out

@@ -391,3 +391,19 @@ def test_switchable_pair_is_scored_and_round_trips_through_its_design_file(tmp_p
     again = binding.score([load_design(p) for p in files])
     np.testing.assert_allclose(again.F, scored.F, rtol=1e-9)
     np.testing.assert_allclose(again.G, scored.G, rtol=1e-6, atol=1e-9)
+
+
+def test_a_spec_of_one_node_searches(tmp_path):
+    # no feeds at all: the encoding and the screen have nothing after the reservoir
+    text = SMALL.replace("""  - name: preamp
+    dc_voltage: 250 V
+    window: 40 V
+    idle_current: 5 mA
+    full_power_current: 5 mA
+    hum: 60 dB
+""", "").replace("""  feeds:
+    preamp:
+      resistance: {min: 1 kohm, max: 22 kohm, series: E6}
+""", "")
+    opt = optimise(load_spec(write(tmp_path / "one.yaml", text)))
+    assert opt.found and np.all(opt.scored.G[opt.front] <= 0)
