@@ -33,11 +33,12 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numba
 import numpy as np
 
 from . import rectifier
 
-__all__ = ["CycleFigures", "path_line", "reservoir_cycle", "ladder_figures", "steady_state",
+__all__ = ["CycleFigures", "reservoir_cycle", "ladder_figures", "steady_state",
            "surge", "choke_overshoot", "downstream_capacitance"]
 
 #: Samples of the reservoir waveform over one half-cycle (for its harmonics and extremes).
@@ -90,153 +91,260 @@ class CycleFigures:
     mean_square_current: np.ndarray
 
 
-def path_line(elements: rectifier.PathElements, peak_current):
-    """Straight-line fit of a conducting path's forward drop over ``0 .. peak_current``.
-
-    Least squares over evenly spaced currents of the elements' laws (Shockley for silicon,
-    Child-Langmuir for a valve plate): the equivalent-resistance linearisation Schade used for
-    his diodes.
-
-    Parameters
-    ----------
-    elements : PathElements
-        Arrays (B,).
-    peak_current : ndarray (B,)
-        [A]
-
-    Returns
-    -------
-    (offset, resistance) : ndarray (B,), ndarray (B,)
-        Drop ~ offset + resistance * current. [V], [ohm]
-    """
-    x = np.linspace(FIT_FROM, 1.0, 9)
-    i = np.maximum(peak_current, 1e-6)[:, None] * x[None, :]
-    drop = (elements.silicon_count[:, None]
-            * rectifier.shockley_voltage(i, elements.saturation_current[:, None],
-                                         elements.emission_coefficient[:, None],
-                                         elements.series_resistance[:, None])
-            + elements.valve_count[:, None]
-            * rectifier.child_langmuir_voltage(i, elements.perveance[:, None]))
-    mean_i, mean_d = i.mean(axis=1), drop.mean(axis=1)
-    slope = (((i - mean_i[:, None]) * (drop - mean_d[:, None])).sum(axis=1)
-             / ((i - mean_i[:, None]) ** 2).sum(axis=1))
-    return np.maximum(mean_d - slope * mean_i, 0.0), np.maximum(slope, 0.0)
+@numba.njit(cache=True)
+def _drop(i, si, vv, sat, n_e, r_s, perveance):
+    """Forward drop of a path at a current (Shockley per junction, Child-Langmuir per plate)."""
+    d = 0.0
+    if si > 0:
+        d += si * (n_e * rectifier.THERMAL_VOLTAGE * np.log1p(i / sat) + r_s * i)
+    if vv > 0:
+        d += vv * np.cbrt(i / perveance) ** 2
+    return d
 
 
-class _Pulse:
-    """The conducting interval's closed-form solution for arrays of designs (B,).
-
-    States ``x = (i, v)``: path current and reservoir capacitor voltage, obeying
-    ``L di/dt = E sin(wt) - V' - R i - v`` and ``C dv/dt = i - I0``.
-    """
-
-    def __init__(self, peak, omega, resistance, inductance, offset, capacitance, load):
-        self.E, self.w, self.R, self.C, self.I0 = peak, omega, resistance, capacitance, load
-        # no leakage at all: a first-order path, taken as a second-order one far over-damped
-        # (damping ratio >= 4) and fast (L/R <= 1 us), which leaves the pulse as it is
-        self.L = np.where(inductance > 0, inductance,
-                          np.minimum(resistance ** 2 * capacitance / 64.0, resistance * 1e-6))
-        self.V = offset
-        z = resistance + 1j * omega * self.L + 1.0 / (1j * omega * capacitance)
-        self.ip = peak / z  # phasors: signal = Im(phasor * exp(j w t))
-        self.vp = self.ip / (1j * omega * capacitance)
-        self.v_dc = -offset - resistance * load
-        alpha = resistance / (2.0 * self.L)
-        beta = np.sqrt(alpha ** 2 - 1.0 / (self.L * capacitance) + 0j)
-        beta = np.where(np.abs(beta) < 1e-6 * alpha, 1e-6 * alpha, beta)
-        self.l2 = -alpha - beta
-        self.l1 = 1.0 / (self.L * capacitance * self.l2)  # the root product, free of cancellation
-
-    def _col(self, a, t):
-        return a if np.ndim(t) == 1 else a[:, None]
-
-    def particular(self, t):
-        """(i_p, v_p, di_p/dt, dv_p/dt) at times t (B,) or (B, K)."""
-        c = self._col
-        w = c(self.w, t)
-        sin, cos = np.sin(w * t), np.cos(w * t)
-        ip_re, ip_im, vp_re, vp_im = (c(a, t) for a in (self.ip.real, self.ip.imag,
-                                                        self.vp.real, self.vp.imag))
-        # Im(P exp(j w t)) = Re(P) sin + Im(P) cos; its derivative w (Re(P) cos - Im(P) sin)
-        return (c(self.I0, t) + ip_re * sin + ip_im * cos,
-                c(self.v_dc, t) + vp_re * sin + vp_im * cos,
-                w * (ip_re * cos - ip_im * sin), w * (vp_re * cos - vp_im * sin))
-
-    def flow(self, tau, y0, y1):
-        """exp(A tau) applied to (y0, y1): the homogeneous solution."""
-        c = self._col
-        L, C, R, l1, l2 = (c(a, tau) for a in (self.L, self.C, self.R, self.l1, self.l2))
-        y0, y1 = (y if np.ndim(y) == np.ndim(tau) else c(y, tau) for y in (y0, y1))
-        e1, e2 = np.exp(l1 * tau), np.exp(l2 * tau)
-        # exp(A t) = (e1 (A - l2 I) - e2 (A - l1 I)) / (l1 - l2)
-        a0 = (-R / L) * y0 - y1 / L
-        a1 = y0 / C
-        out0 = (e1 * (a0 - l2 * y0) - e2 * (a0 - l1 * y0)) / (l1 - l2)
-        out1 = (e1 * (a1 - l2 * y1) - e2 * (a1 - l1 * y1)) / (l1 - l2)
-        return out0.real, out1.real
-
-    def state(self, t1, v1, tau, i1=0.0):
-        """(i, v) at t1 + tau from (i1, v1) at t1; tau (B,) or (B, K)."""
-        ip1, vp1, _, _ = self.particular(t1)
-        t = (t1 if np.ndim(tau) == 1 else t1[:, None]) + tau
-        ip, vp, _, _ = self.particular(t)
-        h0, h1 = self.flow(tau, i1 - ip1, v1 - vp1)
-        return ip + h0, vp + h1
-
-    def slope(self, t, i, v):
-        """di/dt during conduction. [A/s]"""
-        c = self._col
-        return (c(self.E, t) * np.sin(c(self.w, t) * t) - c(self.V, t) - c(self.R, t) * i
-                - v) / c(self.L, t)
+@numba.njit(cache=True)
+def _path_line(peak_i, si, vv, sat, n_e, r_s, perveance):
+    """(offset, slope): least-squares line through the path's law from FIT_FROM * peak_i to
+    peak_i (Schade's equivalent-resistance linearisation). [V], [ohm]"""
+    n = 9
+    mi = md = 0.0
+    xs = np.empty(n)
+    ds = np.empty(n)
+    top = max(peak_i, 1e-6)
+    for k in range(n):
+        xs[k] = top * (FIT_FROM + (1.0 - FIT_FROM) * k / (n - 1))
+        ds[k] = _drop(xs[k], si, vv, sat, n_e, r_s, perveance)
+        mi += xs[k] / n
+        md += ds[k] / n
+    sxy = sxx = 0.0
+    for k in range(n):
+        sxy += (xs[k] - mi) * (ds[k] - md)
+        sxx += (xs[k] - mi) ** 2
+    slope = max(sxy / sxx, 0.0)
+    return max(md - slope * mi, 0.0), slope
 
 
-def _solve(p: _Pulse, half, t1, tc):
-    """Newton's method on (start, length): current ends at zero, capacitor voltage repeats."""
-    converged = np.zeros(t1.shape, bool)
+@numba.njit(cache=True)
+def _roots(R, L, C):
+    """The conducting circuit's natural frequencies (l1 slow, l2 fast). [1/s]"""
+    alpha = R / (2.0 * L)
+    beta = np.sqrt(complex(alpha * alpha - 1.0 / (L * C), 0.0))
+    if abs(beta) < 1e-6 * alpha:
+        beta = complex(1e-6 * alpha, 0.0)
+    l2 = -alpha - beta
+    return 1.0 / (L * C * l2), l2  # the root product, free of cancellation
+
+
+@numba.njit(cache=True)
+def _flow(R, L, C, l1, l2, tau, y0, y1):
+    """exp(A tau) (y0, y1) for A = [[-R/L, -1/L], [1/C, 0]]: the homogeneous solution."""
+    e1 = np.exp(l1 * tau)
+    e2 = np.exp(l2 * tau)
+    a0 = (-R / L) * y0 - y1 / L
+    a1 = y0 / C
+    h0 = (e1 * (a0 - l2 * y0) - e2 * (a0 - l1 * y0)) / (l1 - l2)
+    h1 = (e1 * (a1 - l2 * y1) - e2 * (a1 - l1 * y1)) / (l1 - l2)
+    return h0.real, h1.real
+
+
+@numba.njit(cache=True)
+def _particular(w, I0, v_dc, ip, vp, t):
+    """(i_p, v_p, di_p/dt, dv_p/dt): Im(P exp(j w t)) = Re(P) sin + Im(P) cos, plus DC."""
+    s, c = np.sin(w * t), np.cos(w * t)
+    return (I0 + ip.real * s + ip.imag * c, v_dc + vp.real * s + vp.imag * c,
+            w * (ip.real * c - ip.imag * s), w * (vp.real * c - vp.imag * s))
+
+
+@numba.njit(cache=True)
+def _state(R, L, C, l1, l2, w, I0, v_dc, ip, vp, t1, i1, v1, tau):
+    """(i, v) at t1 + tau from (i1, v1) at t1, while conducting."""
+    ip1, vp1, _, _ = _particular(w, I0, v_dc, ip, vp, t1)
+    ipt, vpt, _, _ = _particular(w, I0, v_dc, ip, vp, t1 + tau)
+    h0, h1 = _flow(R, L, C, l1, l2, tau, i1 - ip1, v1 - vp1)
+    return ipt + h0, vpt + h1
+
+
+@numba.njit(cache=True)
+def _circuit(E, w, R, L_path, C, I0, V):
+    """Constants of the conducting circuit: (L, l1, l2, v_dc, ip, vp)."""
+    if L_path > 0.0:
+        L = L_path
+    else:  # no leakage: far over-damped (zeta >= 4) and fast (L/R <= 1 us), so first-order
+        L = min(R * R * C / 64.0, R * 1e-6)
+    z = complex(R, w * L - 1.0 / (w * C))
+    ip = E / z
+    vp = ip / complex(0.0, w * C)
+    l1, l2 = _roots(R, L, C)
+    return L, l1, l2, -V - R * I0, ip, vp
+
+
+@numba.njit(cache=True)
+def _newton(E, w, R, L, C, I0, V, l1, l2, v_dc, ip, vp, half, t1, tc):
+    """Start and length of the pulse: the current ends at zero, the capacitor voltage repeats."""
+    converged = False
     for _ in range(NEWTON_ITERATIONS):
-        v1 = p.E * np.sin(p.w * t1) - p.V
-        i2, v2 = p.state(t1, v1, tc)
+        v1 = E * np.sin(w * t1) - V
         t2 = t1 + tc
+        i2, v2 = _state(R, L, C, l1, l2, w, I0, v_dc, ip, vp, t1, 0.0, v1, tc)
         f1 = i2
-        f2 = v2 - p.I0 / p.C * (half - tc) - v1
-        # Jacobian: in the length analytically (the state's own derivative); in the start through
-        # the particular solution's and the initial value's derivatives
-        d1_tc = p.slope(t2, i2, v2)
-        d2_tc = i2 / p.C
-        ip1, vp1, dip1, dvp1 = p.particular(t1)
-        _, _, dip2, dvp2 = p.particular(t2)
-        dv1 = p.E * p.w * np.cos(p.w * t1)
-        g0, g1 = p.flow(tc, -dip1, dv1 - dvp1)
+        f2 = v2 - I0 / C * (half - tc) - v1
+        d1_tc = (E * np.sin(w * t2) - V - R * i2 - v2) / L
+        d2_tc = i2 / C
+        _, _, dip1, dvp1 = _particular(w, I0, v_dc, ip, vp, t1)
+        _, _, dip2, dvp2 = _particular(w, I0, v_dc, ip, vp, t2)
+        dv1 = E * w * np.cos(w * t1)
+        g0, g1 = _flow(R, L, C, l1, l2, tc, -dip1, dv1 - dvp1)
         d1_t1 = dip2 + g0
         d2_t1 = dvp2 + g1 - dv1
         det = d1_t1 * d2_tc - d1_tc * d2_t1
-        det = np.where(np.abs(det) > 1e-300, det, 1e-300)
-        step_t1 = (f1 * d2_tc - f2 * d1_tc) / det
-        step_tc = (d1_t1 * f2 - d2_t1 * f1) / det
+        if abs(det) < 1e-300:
+            det = 1e-300
         limit = half / 8.0
-        # a row that has converged keeps its values, so no row depends on the others
-        step_t1 = np.where(converged, 0.0, np.clip(step_t1, -limit, limit))
-        step_tc = np.where(converged, 0.0, np.clip(step_tc, -limit, limit))
-        t1 = np.clip(t1 - step_t1, 0.0, 0.5 * half)
-        tc = np.clip(tc - step_tc, 1e-4 * half, half)
-        scale = np.maximum(p.E, 1.0)
-        converged |= (np.abs(step_t1) < 1e-10 * half) & (np.abs(step_tc) < 1e-10 * half) & (
-            np.abs(f2) < 1e-6 * scale)
-        if converged.all():
+        step_t1 = min(max((f1 * d2_tc - f2 * d1_tc) / det, -limit), limit)
+        step_tc = min(max((d1_t1 * f2 - d2_t1 * f1) / det, -limit), limit)
+        t1 = min(max(t1 - step_t1, 0.0), 0.5 * half)
+        tc = min(max(tc - step_tc, 1e-4 * half), half)
+        if (abs(step_t1) < 1e-10 * half and abs(step_tc) < 1e-10 * half
+                and abs(f2) < 1e-6 * max(E, 1.0)):
+            converged = True
             break
     return t1, tc, converged
 
 
-def _first_guess(peak, omega, resistance, offset, capacitance, load, half):
-    """Start and length from Schade's infinite-capacitance limit, widened by the droop."""
-    v_dc = np.maximum(peak - offset, 1.0)
-    phi = rectifier.conduction_half_angle(resistance * load / v_dc, pulses=2)
-    v_dc = np.maximum(peak * np.cos(phi) - offset, 0.05 * peak)
-    v_min = v_dc - 0.5 * load * half / capacitance
-    s = np.clip((v_min + offset) / peak, 0.05, 0.999)
-    t1 = np.arcsin(s) / omega
-    t2 = (0.5 * np.pi + phi) / omega
-    return t1, np.clip(t2 - t1, 0.02 * half, 0.9 * half)
+@numba.njit(cache=True)
+def _half_angle(ratio):
+    """Schade's infinite-C half conduction angle: tan(phi) - phi = pi ratio / 2. [rad]"""
+    target = np.pi * ratio / 2.0
+    phi = min(max(np.cbrt(3.0 * target), 1e-9), 1.5)
+    for _ in range(60):
+        f = np.tan(phi) - phi - target
+        phi = min(max(phi - f / np.tan(phi) ** 2, 1e-12), np.pi / 2 - 1e-9)
+    return phi
+
+
+@numba.njit(cache=True)
+def _cycle_kernel(peak, omega, resistance, inductance, capacitance, esr, constant, conductance,
+                  si, vv, sat, n_e, r_s, perveance, node, source, terminal, current, rect_node,
+                  scalars):
+    """Each row's reservoir cycle (see :func:`reservoir_cycle`); fills the output arrays."""
+    count = peak.shape[0]
+    pulse_t = np.empty(PULSE_GRID)
+    pulse_i = np.empty(PULSE_GRID)
+    pulse_v = np.empty(PULSE_GRID)
+    for b in range(count):
+        E, w, C, esr_b = peak[b], omega[b], capacitance[b], esr[b]
+        half = np.pi / w
+        v_dc_est = E
+        peak_i = 5.0 * max(constant[b] + conductance[b] * v_dc_est, 1e-9)
+        t1 = tc = -1.0
+        converged = False
+        load = 0.0
+        for fit in range(FIT_PASSES):
+            load = max(constant[b] + conductance[b] * v_dc_est, 1e-9)
+            offset, slope = _path_line(peak_i, si[b], vv[b], sat[b], n_e[b], r_s[b],
+                                       perveance[b])
+            # the node sees the ESR's drop of the load current while charging: fold it in
+            R = resistance[b] + slope + esr_b
+            V = offset - esr_b * load
+            L, l1, l2, v_dc, ip, vp = _circuit(E, w, R, inductance[b], C, load, V)
+            if t1 < 0.0:  # Schade's infinite-C limit, widened by the droop
+                phi = _half_angle(R * load / max(E - V, 1.0))
+                v_est = max(E * np.cos(phi) - V, 0.05 * E)
+                s = min(max((v_est - 0.5 * load * half / C + V) / E, 0.05), 0.999)
+                t1 = np.arcsin(s) / w
+                tc = min(max((0.5 * np.pi + phi) / w - t1, 0.02 * half), 0.9 * half)
+            t1, tc, converged = _newton(E, w, R, L, C, load, V, l1, l2, v_dc, ip, vp, half,
+                                        t1, tc)
+            v1 = E * np.sin(w * t1) - V
+            total = 0.0
+            peak_i = load
+            samples = PULSE_GRID if fit == FIT_PASSES - 1 else 9  # the last pass in full
+            for k in range(samples):
+                pulse_t[k] = tc * k / (samples - 1)
+                pulse_i[k], pulse_v[k] = _state(R, L, C, l1, l2, w, load, v_dc, ip, vp, t1,
+                                                0.0, v1, pulse_t[k])
+                peak_i = max(peak_i, pulse_i[k])
+                total += pulse_v[k]
+            # the pass's DC (the pulse, then the linear fall), and the resistive load it
+            # implies: on the line from the open-circuit crest through it, V = E - R_o I
+            v_end = pulse_v[samples - 1]
+            v_mean = (tc * total / samples
+                      + (half - tc) * (v_end - 0.5 * load / C * (half - tc))) / half
+            r_out = max(E - v_mean, 0.0) / load
+            i_est = (constant[b] + conductance[b] * E) / (1.0 + conductance[b] * r_out)
+            v_dc_est = max(E - r_out * i_est, 0.0)
+        # the half-cycle on a uniform grid from the start, then the pulse's own samples
+        v1 = E * np.sin(w * t1) - V
+        v_end = pulse_v[PULSE_GRID - 1]
+        square = 0.0
+        single = True
+        for k in range(GRID + PULSE_GRID):
+            if k < GRID:
+                t = half * k / GRID
+                on = t < tc
+                if on:
+                    i, v = _state(R, L, C, l1, l2, w, load, v_dc, ip, vp, t1, 0.0, v1, t)
+                    i = max(i, 0.0)
+                else:
+                    i, v = 0.0, v_end - load / C * (t - tc)
+            else:
+                j = k - GRID
+                t, i, v, on = pulse_t[j], max(pulse_i[j], 0.0), pulse_v[j], True
+                square += i * i * (0.5 if j == 0 or j == PULSE_GRID - 1 else 1.0)
+                if 0 < j < PULSE_GRID - 1 and pulse_i[j] < -1e-6 * peak_i:
+                    single = False
+            at = t1 + t
+            src = E * abs(np.sin(w * at))
+            di = (E * np.sin(w * at) - V - R * i - v) / L if on else 0.0
+            source[b, k] = src
+            terminal[b, k] = src - resistance[b] * i - L * di
+            current[b, k] = i
+            rect_node[b, k] = v + esr_b * (i - load)
+            if k < GRID:
+                node[b, k] = rect_node[b, k]
+        scalars[b, 0] = t1
+        scalars[b, 1] = tc
+        scalars[b, 2] = 1.0 if (converged and single and tc < 0.9 * half) else 0.0
+        scalars[b, 3] = peak_i
+        scalars[b, 4] = square * tc / (PULSE_GRID - 1) / half
+
+
+@numba.njit(cache=True)
+def _surge_kernel(peak, omega, resistance, inductance, capacitance, esr, si, vv, sat, n_e, r_s,
+                  perveance, out):
+    """Each row's switch-on from rest at the crest (see :func:`surge`)."""
+    for b in range(peak.shape[0]):
+        E, w, C = peak[b], omega[b], capacitance[b]
+        half = np.pi / w
+        peak_i = E / max(resistance[b] + esr[b], 1e-3)
+        best_i = best_v = 0.0
+        for _ in range(2):
+            offset, slope = _path_line(peak_i, si[b], vv[b], sat[b], n_e[b], r_s[b],
+                                       perveance[b])
+            R = resistance[b] + slope + esr[b]
+            L, l1, l2, v_dc, ip, vp = _circuit(E, w, R, inductance[b], C, 0.0, offset)
+            # the quarter cycle from the crest, then the next half-cycle from where it left off
+            best_i, best_v = 0.0, -np.inf
+            i_end = v_end = 0.0
+            ended = False
+            for k in range(PULSE_GRID + 2 * PULSE_GRID - 1):
+                if k < PULSE_GRID:
+                    tau = 0.5 * half * k / (PULSE_GRID - 1)
+                    i, v = _state(R, L, C, l1, l2, w, 0.0, v_dc, ip, vp, 0.5 * half, 0.0, 0.0,
+                                  tau)
+                    i_end, v_end = i, v
+                else:
+                    tau = half * (k - PULSE_GRID + 1) / (2 * PULSE_GRID - 1)
+                    i, v = _state(R, L, C, l1, l2, w, 0.0, v_dc, ip, vp, 0.0, i_end, v_end, tau)
+                if k > 0 and i < 0.0:
+                    ended = True
+                if ended:
+                    break
+                best_i = max(best_i, i)
+                best_v = max(best_v, v)
+            peak_i = best_i
+        out[b, 0] = best_i
+        out[b, 1] = best_v
 
 
 def reservoir_cycle(peak, frequency, resistance, inductance, capacitance, esr, load,
@@ -268,65 +376,24 @@ def reservoir_cycle(peak, frequency, resistance, inductance, capacitance, esr, l
     ----------
     .. [1] O. H. Schade, "Analysis of rectifier operation", Proc. IRE 31, 1943.
     """
-    omega = 2.0 * np.pi * np.broadcast_to(np.asarray(frequency, float), peak.shape)
-    half = np.pi / omega
-    constant = load
-    conductance = np.zeros_like(peak) if conductance is None else conductance
-    v_dc = peak
-    peak_i = 5.0 * np.maximum(constant + conductance * v_dc, 1e-9)
-    t1 = tc = None
-    for _ in range(FIT_PASSES):
-        load = np.maximum(constant + conductance * v_dc, 1e-9)
-        offset, slope = path_line(elements, peak_i)
-        # the node sees the ESR's drop of the load current while charging: fold it in
-        r_total = resistance + slope + esr
-        v_eff = offset - esr * load
-        pulse = _Pulse(peak, omega, r_total, inductance, v_eff, capacitance, load)
-        if t1 is None:
-            t1, tc = _first_guess(peak, omega, r_total, v_eff, capacitance, load, half)
-        t1, tc, converged = _solve(pulse, half, t1, tc)
-        v1 = peak * np.sin(omega * t1) - v_eff
-        last = _ == FIT_PASSES - 1
-        tau = tc[:, None] * np.linspace(0.0, 1.0, PULSE_GRID if last else 9)[None, :]
-        i_pulse, v_pulse = pulse.state(t1, v1, tau)
-        peak_i = np.maximum(i_pulse.max(axis=1), load)
-        # the pass's DC (pulse, then the linear fall), and the resistive load it implies: on
-        # the line from the open-circuit crest through this point, V = E - R_o I
-        v_end = v_pulse[:, -1]
-        v_mean = (tc * v_pulse.mean(axis=1)
-                  + (half - tc) * (v_end - 0.5 * load / capacitance * (half - tc))) / half
-        r_out = np.maximum(peak - v_mean, 0.0) / load
-        current = (constant + conductance * peak) / (1.0 + conductance * r_out)
-        v_dc = np.maximum(peak - r_out * current, 0.0)
-    # the half-cycle on a uniform grid from the start: the pulse, then a linear discharge
-    grid = half[:, None] * np.arange(GRID)[None, :] / GRID
-    on = grid < tc[:, None]
-    i_on, v_on = pulse.state(t1, v1, np.minimum(grid, tc[:, None]))
-    v_end = v_pulse[:, -1]
-    current = np.where(on, np.maximum(i_on, 0.0), 0.0)
-    cap_v = np.where(on, v_on, v_end[:, None] - (load / capacitance)[:, None]
-                     * (grid - tc[:, None]))
-    node = cap_v + esr[:, None] * (current - load[:, None])
-    # samples of the pulse itself, for its peak, RMS and the reverse voltages
-    all_t = np.concatenate([grid, tau], axis=1)
-    all_i = np.concatenate([current, np.maximum(i_pulse, 0.0)], axis=1)
-    all_v = np.concatenate([cap_v, v_pulse], axis=1)
-    all_on = np.concatenate([on, np.ones_like(tau, bool)], axis=1)
-    abs_t = t1[:, None] + all_t
-    source = peak[:, None] * np.abs(np.sin(omega[:, None] * abs_t))
-    di = np.where(all_on, pulse.slope(abs_t, all_i, all_v), 0.0)
-    terminal = source - resistance[:, None] * all_i - pulse.L[:, None] * di
-    rect_node = all_v + esr[:, None] * (all_i - load[:, None])
-    # Simpson's rule over the pulse (PULSE_GRID is even: use the first PULSE_GRID - 1 intervals
-    # by the trapezium where Simpson's does not fit)
-    sq = np.maximum(i_pulse, 0.0) ** 2
-    h = tc / (PULSE_GRID - 1)
-    integral = h * (sq.sum(axis=1) - 0.5 * (sq[:, 0] + sq[:, -1]))
-    single = (i_pulse[:, 1:-1] < -1e-6 * peak_i[:, None]).any(axis=1)
-    ok = converged & ~single & (tc < 0.9 * half)
-    return CycleFigures(start=t1, length=tc, converged=ok, node=node, source=source,
-                        terminal=terminal, current=all_i, rectifier_node=rect_node,
-                        peak_current=peak_i, mean_square_current=integral / half)
+    count = peak.shape[0]
+    f64 = lambda x: np.ascontiguousarray(np.broadcast_to(np.asarray(x, float), (count,)))  # noqa: E731
+    omega = 2.0 * np.pi * f64(frequency)
+    conductance = np.zeros(count) if conductance is None else conductance
+    width = GRID + PULSE_GRID
+    node = np.empty((count, GRID))
+    source, terminal, current, rect_node = (np.empty((count, width)) for _ in range(4))
+    scalars = np.empty((count, 5))
+    el = elements
+    _cycle_kernel(f64(peak), omega, f64(resistance), f64(inductance), f64(capacitance), f64(esr),
+                  f64(load), f64(conductance), f64(el.silicon_count), f64(el.valve_count),
+                  f64(el.saturation_current), f64(el.emission_coefficient),
+                  f64(el.series_resistance), f64(el.perveance), node, source, terminal, current,
+                  rect_node, scalars)
+    return CycleFigures(start=scalars[:, 0], length=scalars[:, 1], converged=scalars[:, 2] > 0.5,
+                        node=node, source=source, terminal=terminal, current=current,
+                        rectifier_node=rect_node, peak_current=scalars[:, 3],
+                        mean_square_current=scalars[:, 4])
 
 
 def _ladder_admittances(w, capacitance, esr, feed_resistance, feed_inductance, conductance):
@@ -544,28 +611,15 @@ def surge(peak, frequency, resistance, inductance, capacitance, esr,
     (current, voltage) : ndarray (B,), ndarray (B,)
         Peak path current and the highest reservoir voltage over those. [A], [V]
     """
-    omega = 2.0 * np.pi * np.broadcast_to(np.asarray(frequency, float), peak.shape)
-    half = np.pi / omega
-    peak_i = peak / np.maximum(resistance + esr, 1e-3)
-    zero = np.zeros_like(peak)
-    for _ in range(2):
-        offset, slope = path_line(elements, peak_i)
-        pulse = _Pulse(peak, omega, resistance + slope + esr, inductance, offset, capacitance,
-                       zero)
-        # first the quarter cycle from the crest, then a whole half-cycle
-        first = 0.5 * half[:, None] * np.linspace(0.0, 1.0, PULSE_GRID)[None, :]
-        i_a, v_a = pulse.state(0.5 * half, zero, first)
-        i_b, v_b = pulse.state(zero, v_a[:, -1], half[:, None] * np.linspace(
-            0.0, 1.0, 2 * PULSE_GRID)[None, :], i1=i_a[:, -1])
-        i = np.concatenate([i_a, i_b[:, 1:]], axis=1)
-        v = np.concatenate([v_a, v_b[:, 1:]], axis=1)
-        # up to the pulse's end (the first sample where the current would reverse; the first
-        # sample is the rest it starts from)
-        reversed_ = i < 0.0
-        reversed_[:, 0] = False
-        ended = np.cumsum(reversed_, axis=1) > 0
-        peak_i = np.where(ended, 0.0, i).max(axis=1)
-    return peak_i, np.where(ended, -np.inf, v).max(axis=1)
+    count = peak.shape[0]
+    f64 = lambda x: np.ascontiguousarray(np.broadcast_to(np.asarray(x, float), (count,)))  # noqa: E731
+    out = np.empty((count, 2))
+    el = elements
+    _surge_kernel(f64(peak), 2.0 * np.pi * f64(frequency), f64(resistance), f64(inductance),
+                  f64(capacitance), f64(esr), f64(el.silicon_count), f64(el.valve_count),
+                  f64(el.saturation_current), f64(el.emission_coefficient),
+                  f64(el.series_resistance), f64(el.perveance), out)
+    return out[:, 0], out[:, 1]
 
 
 def choke_overshoot(inductance, resistance, capacitance, rise_time):
