@@ -38,7 +38,7 @@ import numpy as np
 
 from . import rectifier
 
-__all__ = ["CycleFigures", "reservoir_cycle", "ladder_figures", "steady_state",
+__all__ = ["CycleFigures", "reservoir_cycle", "steady_state",
            "surge", "choke_overshoot", "downstream_capacitance"]
 
 #: Samples of the reservoir waveform over one half-cycle (for its harmonics and extremes).
@@ -159,9 +159,39 @@ def _particular(w, I0, v_dc, ip, vp, t):
 def _state(R, L, C, l1, l2, w, I0, v_dc, ip, vp, t1, i1, v1, tau):
     """(i, v) at t1 + tau from (i1, v1) at t1, while conducting."""
     ip1, vp1, _, _ = _particular(w, I0, v_dc, ip, vp, t1)
+    return _state_from(R, L, C, l1, l2, w, I0, v_dc, ip, vp, t1, i1 - ip1, v1 - vp1, tau)
+
+
+@numba.njit(cache=True)
+def _state_from(R, L, C, l1, l2, w, I0, v_dc, ip, vp, t1, y0, y1, tau):
+    """As :func:`_state`, given the start's departure (y0, y1) from the particular solution."""
     ipt, vpt, _, _ = _particular(w, I0, v_dc, ip, vp, t1 + tau)
-    h0, h1 = _flow(R, L, C, l1, l2, tau, i1 - ip1, v1 - vp1)
+    h0, h1 = _flow(R, L, C, l1, l2, tau, y0, y1)
     return ipt + h0, vpt + h1
+
+
+@numba.njit(cache=True)
+def _samples(R, L, C, l1, l2, w, I0, v_dc, ip, vp, t1, y0, y1, step, count, out_i, out_v,
+             out_sin):
+    """(i, v) and sin(w t) at t1 + k step, k = 0..count-1, while conducting: the sines and the
+    exponentials advanced by rotation and multiplication from one sample to the next."""
+    s, c = np.sin(w * t1), np.cos(w * t1)
+    ds, dc = np.sin(w * step), np.cos(w * step)
+    e1 = complex(1.0, 0.0)
+    e2 = complex(1.0, 0.0)
+    g1, g2 = np.exp(l1 * step), np.exp(l2 * step)
+    a0 = (-R / L) * y0 - y1 / L
+    a1 = y0 / C
+    p0, q0 = a0 - l2 * y0, a0 - l1 * y0
+    p1, q1 = a1 - l2 * y1, a1 - l1 * y1
+    d = l1 - l2
+    for k in range(count):
+        out_i[k] = I0 + ip.real * s + ip.imag * c + ((e1 * p0 - e2 * q0) / d).real
+        out_v[k] = v_dc + vp.real * s + vp.imag * c + ((e1 * p1 - e2 * q1) / d).real
+        out_sin[k] = s
+        s, c = s * dc + c * ds, c * dc - s * ds
+        e1 *= g1
+        e2 *= g2
 
 
 @numba.njit(cache=True)
@@ -185,13 +215,14 @@ def _newton(E, w, R, L, C, I0, V, l1, l2, v_dc, ip, vp, half, t1, tc):
     for _ in range(NEWTON_ITERATIONS):
         v1 = E * np.sin(w * t1) - V
         t2 = t1 + tc
-        i2, v2 = _state(R, L, C, l1, l2, w, I0, v_dc, ip, vp, t1, 0.0, v1, tc)
+        ip1, vp1, dip1, dvp1 = _particular(w, I0, v_dc, ip, vp, t1)
+        ip2, vp2, dip2, dvp2 = _particular(w, I0, v_dc, ip, vp, t2)
+        h0, h1 = _flow(R, L, C, l1, l2, tc, -ip1, v1 - vp1)
+        i2, v2 = ip2 + h0, vp2 + h1
         f1 = i2
         f2 = v2 - I0 / C * (half - tc) - v1
         d1_tc = (E * np.sin(w * t2) - V - R * i2 - v2) / L
         d2_tc = i2 / C
-        _, _, dip1, dvp1 = _particular(w, I0, v_dc, ip, vp, t1)
-        _, _, dip2, dvp2 = _particular(w, I0, v_dc, ip, vp, t2)
         dv1 = E * w * np.cos(w * t1)
         g0, g1 = _flow(R, L, C, l1, l2, tc, -dip1, dv1 - dvp1)
         d1_t1 = dip2 + g0
@@ -218,6 +249,8 @@ def _half_angle(ratio):
     phi = min(max(np.cbrt(3.0 * target), 1e-9), 1.5)
     for _ in range(60):
         f = np.tan(phi) - phi - target
+        if abs(f) <= 1e-12 * target:
+            break
         phi = min(max(phi - f / np.tan(phi) ** 2, 1e-12), np.pi / 2 - 1e-9)
     return phi
 
@@ -228,9 +261,12 @@ def _cycle_kernel(peak, omega, resistance, inductance, capacitance, esr, constan
                   scalars):
     """Each row's reservoir cycle (see :func:`reservoir_cycle`); fills the output arrays."""
     count = peak.shape[0]
-    pulse_t = np.empty(PULSE_GRID)
     pulse_i = np.empty(PULSE_GRID)
     pulse_v = np.empty(PULSE_GRID)
+    pulse_s = np.empty(PULSE_GRID)
+    grid_i = np.empty(GRID)
+    grid_v = np.empty(GRID)
+    grid_s = np.empty(GRID)
     for b in range(count):
         E, w, C, esr_b = peak[b], omega[b], capacitance[b], esr[b]
         half = np.pi / w
@@ -256,13 +292,14 @@ def _cycle_kernel(peak, omega, resistance, inductance, capacitance, esr, constan
             t1, tc, converged = _newton(E, w, R, L, C, load, V, l1, l2, v_dc, ip, vp, half,
                                         t1, tc)
             v1 = E * np.sin(w * t1) - V
+            ip1, vp1, _, _ = _particular(w, load, v_dc, ip, vp, t1)
+            y0, y1 = -ip1, v1 - vp1
             total = 0.0
             peak_i = load
             samples = PULSE_GRID if fit == FIT_PASSES - 1 else 9  # the last pass in full
+            _samples(R, L, C, l1, l2, w, load, v_dc, ip, vp, t1, y0, y1, tc / (samples - 1),
+                     samples, pulse_i, pulse_v, pulse_s)
             for k in range(samples):
-                pulse_t[k] = tc * k / (samples - 1)
-                pulse_i[k], pulse_v[k] = _state(R, L, C, l1, l2, w, load, v_dc, ip, vp, t1,
-                                                0.0, v1, pulse_t[k])
                 peak_i = max(peak_i, pulse_i[k])
                 total += pulse_v[k]
             # the pass's DC (the pulse, then the linear fall), and the resistive load it
@@ -278,24 +315,25 @@ def _cycle_kernel(peak, omega, resistance, inductance, capacitance, esr, constan
         v_end = pulse_v[PULSE_GRID - 1]
         square = 0.0
         single = True
+        _samples(R, L, C, l1, l2, w, load, v_dc, ip, vp, t1, y0, y1, half / GRID, GRID,
+                 grid_i, grid_v, grid_s)
         for k in range(GRID + PULSE_GRID):
             if k < GRID:
                 t = half * k / GRID
                 on = t < tc
                 if on:
-                    i, v = _state(R, L, C, l1, l2, w, load, v_dc, ip, vp, t1, 0.0, v1, t)
-                    i = max(i, 0.0)
+                    i, v = max(grid_i[k], 0.0), grid_v[k]
                 else:
                     i, v = 0.0, v_end - load / C * (t - tc)
+                sine = grid_s[k]
             else:
                 j = k - GRID
-                t, i, v, on = pulse_t[j], max(pulse_i[j], 0.0), pulse_v[j], True
+                i, v, on, sine = max(pulse_i[j], 0.0), pulse_v[j], True, pulse_s[j]
                 square += i * i * (0.5 if j == 0 or j == PULSE_GRID - 1 else 1.0)
                 if 0 < j < PULSE_GRID - 1 and pulse_i[j] < -1e-6 * peak_i:
                     single = False
-            at = t1 + t
-            src = E * abs(np.sin(w * at))
-            di = (E * np.sin(w * at) - V - R * i - v) / L if on else 0.0
+            src = E * abs(sine)
+            di = (E * sine - V - R * i - v) / L if on else 0.0
             source[b, k] = src
             terminal[b, k] = src - resistance[b] * i - L * di
             current[b, k] = i
@@ -438,61 +476,81 @@ def downstream_capacitance(frequency, capacitance, esr, feed_resistance, feed_in
     return extra, np.minimum(damping, 1.0)
 
 
-def ladder_figures(reservoir_node, frequency, capacitance, esr, feed_resistance,
-                   feed_inductance, conductance, dc_voltages):
-    """Every node's ripple waveform and the ladder's AC currents, from the reservoir's waveform.
+@numba.njit(cache=True)
+def _ladder_kernel(reservoir, path_current, drawn, frequency, capacitance, esr, feed_r, feed_l,
+                   conductance, dc, cos_t, sin_t, ripple, node_peak, cap_ms, feed_ms, cross):
+    """Each row's ladder ripple from its reservoir waveform (see :func:`steady_state`).
 
-    Parameters
-    ----------
-    reservoir_node : ndarray (B, G)
-        The reservoir node over one half-cycle, uniformly sampled. [V]
-    frequency : ndarray (B,)
-        Mains frequency. [Hz]
-    capacitance, esr : ndarray (B, N)
-        [F], [ohm]
-    feed_resistance, feed_inductance : ndarray (B, N)
-        Feed into each node from the one before (column 0 unused). [ohm], [H]
-    conductance : ndarray (B, N)
-        Resistive load (bleeders) at each node; constant-current loads carry no ripple. [S]
-    dc_voltages : ndarray (B, N)
-        Node DC voltages (column 0 the reservoir's mean). [V]
-
-    Returns
-    -------
-    (node, capacitor_current, feed_ac) : ndarray (B, G, N) each
-        Node voltage waveforms (DC included), capacitor currents and the feeds' AC currents.
-        [V], [A], [A]
-
-    Notes
-    -----
-    Each harmonic of the ripple (the half-cycle repeats, so harmonics of twice the mains
-    frequency) passes the ladder as phasors: with the node's shunt admittance ``Y_k`` and the
-    admittance of everything after it, the node gets ``1 / (1 + Z_k Y_total_k)`` of the one
-    before.
+    Harmonics 1..HARMONICS of the half-cycle waveform (a DFT of GRID samples) pass the ladder as
+    phasors; mean squares by Parseval's theorem, node waveforms rebuilt from the same harmonics.
     """
-    count, samples = reservoir_node.shape
-    n = capacitance.shape[1]
-    spectrum = np.fft.rfft(reservoir_node - reservoir_node.mean(axis=1, keepdims=True),
-                           axis=1)[:, :HARMONICS + 1]
-    harmonic = np.arange(spectrum.shape[1])
-    w = 2.0 * np.pi * 2.0 * frequency[:, None] * harmonic[None, :]
-    w = np.where(harmonic[None, :] == 0, 1e-12, w)
-    shunt_z, series, total = _ladder_admittances(w, capacitance, esr, feed_resistance,
-                                                 feed_inductance, conductance)
-    shunt_y = 1.0 / shunt_z + conductance[:, None, :]
-    phasor = np.empty_like(shunt_y)
-    phasor[:, :, 0] = spectrum
-    for k in range(1, n):
-        phasor[:, :, k] = phasor[:, :, k - 1] / (1.0 + series[:, :, k] * total[:, :, k])
-    phasor[:, 0, :] = 0.0
-    cap_i = phasor / shunt_z
-    feed = np.zeros_like(phasor)
-    feed[:, :, 1:] = (phasor[:, :, :-1] - phasor[:, :, 1:]) / series[:, :, 1:]
-    feed[:, 0, :] = 0.0
-    back = lambda s: np.fft.irfft(s, n=samples, axis=1)  # noqa: E731
-    node = back(phasor) + dc_voltages[:, None, :]
-    node[:, :, 0] = reservoir_node
-    return node, back(cap_i), back(feed)
+    count, n = capacitance.shape
+    M = reservoir.shape[1]
+    H = cos_t.shape[1]
+    X = np.empty(H, np.complex128)
+    A = np.empty(H, np.complex128)
+    phasor = np.empty((H, n), np.complex128)
+    shunt_z = np.empty(n, np.complex128)
+    series = np.empty(n, np.complex128)
+    total = np.empty(n, np.complex128)
+    for b in range(count):
+        mean = 0.0
+        for m in range(M):
+            mean += reservoir[b, m] / M
+        for h in range(H):
+            xr = xi = ar = ai = 0.0
+            for m in range(M):
+                x = reservoir[b, m] - mean
+                a = path_current[b, m] - drawn[b]
+                xr += x * cos_t[m, h]
+                xi -= x * sin_t[m, h]
+                ar += a * cos_t[m, h]
+                ai -= a * sin_t[m, h]
+            X[h] = complex(xr, xi)
+            A[h] = complex(ar, ai)
+        for k in range(n):
+            cap_ms[b, k] = 0.0
+            feed_ms[b, k] = 0.0
+        cross[b] = 0.0
+        scale = 2.0 / (M * M)  # Parseval for a real signal of harmonics 1..H (H < M / 2)
+        for h in range(H):
+            w = 2.0 * np.pi * 2.0 * frequency[b] * (h + 1)
+            for k in range(n):
+                shunt_z[k] = esr[b, k] + 1.0 / complex(0.0, w * capacitance[b, k])
+                series[k] = complex(feed_r[b, k], w * feed_l[b, k])
+            total[n - 1] = 1.0 / shunt_z[n - 1] + conductance[b, n - 1]
+            for k in range(n - 2, -1, -1):
+                total[k] = (1.0 / shunt_z[k] + conductance[b, k]
+                            + 1.0 / (series[k + 1] + 1.0 / total[k + 1]))
+            phasor[h, 0] = X[h]
+            for k in range(1, n):
+                phasor[h, k] = phasor[h, k - 1] / (1.0 + series[k] * total[k])
+            for k in range(1, n):
+                c = phasor[h, k] / shunt_z[k]
+                f = (phasor[h, k - 1] - phasor[h, k]) / series[k]
+                cap_ms[b, k] += scale * (c.real ** 2 + c.imag ** 2)
+                feed_ms[b, k] += scale * (f.real ** 2 + f.imag ** 2)
+                if k == 1:
+                    cross[b] += scale * (A[h].real * f.real + A[h].imag * f.imag)
+        # node waveforms: the reservoir as it is, the others rebuilt from their harmonics
+        high = low = reservoir[b, 0]
+        for m in range(M):
+            high = max(high, reservoir[b, m])
+            low = min(low, reservoir[b, m])
+        ripple[b, 0] = high - low
+        node_peak[b, 0] = max(high, 0.0)
+        for k in range(1, n):
+            high = -np.inf
+            low = np.inf
+            for m in range(M):
+                v = dc[b, k]
+                for h in range(H):
+                    p = phasor[h, k]
+                    v += (2.0 / M) * (p.real * cos_t[m, h] - p.imag * sin_t[m, h])
+                high = max(high, v)
+                low = min(low, v)
+            ripple[b, k] = high - low
+            node_peak[b, k] = max(high, 0.0)
 
 
 def steady_state(values, elements: rectifier.PathElements, peak, frequency, topology,
@@ -551,22 +609,22 @@ def steady_state(values, elements: rectifier.PathElements, peak, frequency, topo
     for k in range(1, n):
         downstream[:, k] = a[:, k] + b[:, k] * dc[:, k - 1]
         dc[:, k] = dc[:, k - 1] - v.feed_resistance[:, k] * downstream[:, k]
-    node, cap_i, feed_ac = ladder_figures(reservoir, frequency,
-                                          v.capacitance, v.esr, v.feed_resistance,
-                                          v.feed_inductance, v.load_conductance, dc)
-    cap_rms = np.sqrt((cap_i ** 2).mean(axis=1))
+    ripple, node_peak, cap_ms, feed_ms = (np.empty((count, n)) for _ in range(4))
+    cross = np.empty(count)
+    angle = 2.0 * np.pi * np.outer(np.arange(GRID), np.arange(1, HARMONICS + 1)) / GRID
+    _ladder_kernel(np.ascontiguousarray(reservoir), np.ascontiguousarray(cycle.current[:, :GRID]),
+                   downstream[:, 0].copy(), np.ascontiguousarray(frequency, float),
+                   v.capacitance, v.esr, v.feed_resistance, v.feed_inductance,
+                   v.load_conductance, dc, np.cos(angle), np.sin(angle), ripple, node_peak,
+                   cap_ms, feed_ms, cross)
+    cap_rms = np.sqrt(cap_ms)
     # the reservoir's capacitor carries the path current (mean: the DC drawn) less the ladder's
-    if n > 1:
-        after = feed_ac[:, :, 1]
-        ac_after = (after ** 2).mean(axis=1) - 2.0 * (
-            (cycle.current[:, :GRID] - downstream[:, :1]) * after).mean(axis=1)
-    else:
-        ac_after = 0.0
+    ac_after = feed_ms[:, 1] - 2.0 * cross if n > 1 else 0.0
     cap_rms[:, 0] = np.sqrt(np.maximum(cycle.mean_square_current - downstream[:, 0] ** 2
                                        + ac_after, 0.0))
     feed_dc = downstream.copy()
     feed_dc[:, 0] = 0.0
-    feed_rms = np.sqrt(feed_dc ** 2 + (feed_ac ** 2).mean(axis=1))
+    feed_rms = np.sqrt(feed_dc ** 2 + feed_ms)
     feed_rms[:, 0] = 0.0
     i_sq = cycle.mean_square_current
     cur = cycle.current
@@ -584,8 +642,8 @@ def steady_state(values, elements: rectifier.PathElements, peak, frequency, topo
     whole = np.asarray(topology) != "centre-tap"
     return {
         "dc_voltage": dc,
-        "ripple_pp": node.max(axis=1) - node.min(axis=1),
-        "peak_voltage": np.maximum(node.max(axis=1), 0.0),
+        "ripple_pp": ripple,
+        "peak_voltage": node_peak,
         "capacitor_rms_current": cap_rms,
         "feed_rms_current": feed_rms,
         "feed_dc_current": feed_dc,
