@@ -747,9 +747,9 @@ class CoDesign:
         for k in range(len(s.nodes)):
             g.append(np.where(made[:, k], -1.0, 1.0))
         known = self.check_names
-        for name in known:
-            col = ratios.get(name, np.full(count, np.nan))
-            g.append(np.nan_to_num(col - 1.0, nan=-1.0))
+        missing = np.full(count, np.nan)
+        checks = np.column_stack([ratios.get(name, missing) for name in known]) - 1.0
+        g.extend(np.where(np.isnan(checks), -1.0, checks).T)
         others = [ratios[c] for c in ratios if c not in known]
         if others:
             g.append(np.nan_to_num(worst(np.column_stack(others)) - 1.0, nan=-1.0))

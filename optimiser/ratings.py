@@ -12,7 +12,7 @@ from functools import cached_property
 
 import numpy as np
 
-__all__ = ["CheckColumn", "Check", "column", "rectifier_stress", "capacitor_life",
+__all__ = ["CheckColumn", "Check", "check_ratio", "column", "rectifier_stress", "capacitor_life",
            "valve_cathode_loading"]
 
 
@@ -49,10 +49,17 @@ class CheckColumn:
 
     @cached_property
     def ratio(self) -> np.ndarray:
-        with np.errstate(divide="ignore", invalid="ignore"):
-            r = self.limit / self.value if self.minimum else self.value / self.limit
-        return np.where(np.isfinite(self.limit) & np.isfinite(self.value) | np.isinf(self.value),
-                        r, np.nan)
+        return check_ratio(self.value, self.limit, self.minimum)
+
+
+def check_ratio(value, limit, minimum=False) -> np.ndarray:
+    """value/limit for a maximum rating, limit/value for a least one; NaN where either is missing
+    (an infinite value, a figure that ran away, counts as far over). [-]"""
+    value = np.asarray(value, float)
+    limit = np.asarray(limit, float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r = limit / value if minimum else value / limit
+    return np.where(np.isfinite(limit) & np.isfinite(value) | np.isinf(value), r, np.nan)
 
 
 @dataclass(frozen=True)

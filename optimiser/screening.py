@@ -389,10 +389,7 @@ class Screen:
         cond = self.b.conditions
         hf, hn = f["high_full"], f["high_none"]
         rows = len(owner)
-        col = lambda value, limit, minimum=False: ratings.CheckColumn(  # noqa: E731
-            "", "", "", np.asarray(value, float), np.broadcast_to(np.asarray(limit, float),
-                                                                  (rows,)),
-            minimum, []).ratio
+        col = ratings.check_ratio
 
         def part(attr, kind):
             return self.position_rating[(kind, attr)][position]
@@ -458,11 +455,14 @@ class Screen:
             out[f"bleeder.{name}.discharge_time"] = (col(discharge[:, k],
                                                          cond.discharge_time_limit), False)
         # a switchable pair's checks carry their position's name
-        named = {}
         prefixes = self.position_prefix[position]
-        for name, (values, rectifier_check) in out.items():
-            for prefix in np.unique(prefixes):
-                mask = prefixes == prefix
+        kinds = np.unique(prefixes)
+        if len(kinds) == 1 and not kinds[0]:
+            return out
+        named = {}
+        for prefix in kinds:
+            mask = prefixes == prefix
+            for name, (values, rectifier_check) in out.items():
                 key = f"{prefix}/{name}" if prefix else name
                 named[key] = (np.where(mask, values, np.nan), rectifier_check)
         return named
@@ -470,6 +470,8 @@ class Screen:
 
 def _per_design(values, owner, count):
     """Worst of a row figure over each design's rows (NaN where none applies). (B,)"""
+    if len(owner) == count:  # one row per design: no switchable pair in the batch
+        return values
     out = np.full(count, -np.inf)
     np.maximum.at(out, owner, np.where(np.isnan(values), -np.inf, values))
     return np.where(np.isneginf(out), np.nan, out)
