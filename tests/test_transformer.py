@@ -83,6 +83,23 @@ def test_design_windings_are_hot_by_their_computed_temperature():
         assert winding.resistance_hot / winding.resistance_20 == pytest.approx(expected, rel=1e-3)
 
 
+def test_the_compiled_passes_use_the_physics_modules_formulas():
+    # the fixed point is compiled one design at a time; its figures must be the physics
+    # module's own formulas (checked against their sources above) applied to its geometry
+    from optimiser.transformer import physics
+
+    pop = typical(hv_voltage=np.array([250.0, 300.0, 380.0]),
+                  hv_rms_current=np.array([0.12, 0.2, 0.3]), stack=np.array([0.03, 0.04, 0.05]))
+    for w in pop.windings:
+        np.testing.assert_allclose(w.wire_length * physics.resistance_per_length(
+            w.wire_diameter, 20.0), w.end_to_end_resistance_20, rtol=1e-12)
+        # Source: IEC 60028, R_T / R_20 = 1 + 0.00393 (T - 20 degC)
+        np.testing.assert_allclose(w.resistance_hot / w.resistance_20, 1.0 + 0.00393 * (
+            pop.winding_temperature - 20.0), rtol=1e-12)
+    np.testing.assert_allclose(pop.temperature_rise, physics.mclyman_temperature_rise(
+        pop.total_loss, pop.surface_area), rtol=1e-12)
+
+
 def test_wire_snaps_up_to_a_real_size():
     # 1 A at 2.5 A/mm^2 needs 0.4 mm^2, i.e. 0.714 mm bare (derived by hand).
     # Source: IEC 60317-0-1 R20 series: next size up is 0.80 mm (from memory — verify).

@@ -10,9 +10,11 @@ import math
 from dataclasses import dataclass
 from typing import Any, Sequence
 
+import numba
 import numpy as np
 
 from .physics import (
+    COPPER_RESISTIVITY_20C,
     COPPER_DENSITY,
     COPPER_TEMPERATURE_COEFFICIENT_20C,
     _EMF_FACTOR,
@@ -20,14 +22,11 @@ from .physics import (
     ei_area_product,
     ei_core_area,
     ei_magnetic_path_length,
-    ei_outline_surface_area,
     ei_steel_volume,
     ei_window,
     leakage_inductance_layered,
     magnetising_field,
-    mclyman_temperature_rise,
     mean_turn_length,
-    resistance_per_length,
     steinmetz_loss,
     turns_for_voltage,
 )
@@ -617,11 +616,6 @@ def _snap_up(table: WireTable, current, current_density):
     return index, table.diameters[index], available
 
 
-def _choose_wire(setup: _Setup, current, current_density):
-    """Smallest offered wire whose area carries ``current`` at ``current_density`` (snapped up)."""
-    return _snap_up(setup.wire, current, current_density)
-
-
 def wire_size_for_current(rms_current, current_density, wire_system="metric", data=None):
     """Smallest real wire size whose bare area carries a current at a current density.
 
@@ -653,46 +647,6 @@ def wire_size_for_current(rms_current, current_density, wire_system="metric", da
     return diameter, np.array(table.labels)[index], available
 
 
-def _enamel_increase(setup: _Setup, diameter):
-    points = setup.data.wire.enamel_build.points
-    nominal = np.array([p.nominal_diameter for p in points])
-    increase = np.array([p.grade_1 if setup.enamel_grade == 1 else p.grade_2 for p in points])
-    return np.interp(diameter, nominal, increase)
-
-
-def _interlayer(setup: _Setup, diameter):
-    rules = setup.data.wire.winding_practice.interlayer
-    limits = np.array([r.up_to_diameter for r in rules])
-    thickness = np.array([setup.data.material(r.material).thickness for r in rules])
-    return thickness[np.minimum(np.searchsorted(limits, diameter, side="left"), limits.size - 1)]
-
-
-def _layering(setup: _Setup, turns, overall_diameter, interlayer):
-    """Turns per layer, layers and radial build (with bulge) of layer-wound windings."""
-    practice = setup.data.wire.winding_practice
-    per_layer = np.floor(setup.winding_width / (overall_diameter * practice.lay_factor))
-    traverse_ok = per_layer >= 1.0
-    per_layer = np.maximum(per_layer, 1.0)
-    layers = np.maximum(np.ceil(turns / per_layer - 1e-9), 1.0)
-    build = (layers * overall_diameter + (layers - 1.0) * interlayer) * practice.bulge_factor
-    return per_layer, layers, build, traverse_ok
-
-
-def _positions(setup: _Setup, builds):
-    """Distance of each winding's start from the tube, and the total build, following the order."""
-    start = np.zeros_like(builds)
-    cursor = np.zeros(setup.n)
-    for k, row in enumerate(setup.order):
-        if k > 0:
-            cursor = cursor + setup.interwinding
-        if row < 0:
-            cursor = cursor + setup.screen_thickness
-        else:
-            start[row] = cursor
-            cursor = cursor + builds[row]
-    return start, cursor + setup.outer_wrap
-
-
 def _iron(setup: _Setup, primary_turns):
     """Flux density with integer turns, core loss, magnetising and core-loss currents."""
     data = setup.data
@@ -712,120 +666,252 @@ def _iron(setup: _Setup, primary_turns):
     return b, steel_mass, core_loss, magnetising, core_loss / v_low
 
 
-def _pass(setup: _Setup, iron, n_eq, n_primary, ratio, temperature, current_density):
-    """One evaluation of every winding figure for given turns ratios and winding temperature."""
-    b, steel_mass, core_loss, i_mag, i_core = iron
-    v_low = setup.taps[0]
-    parallel = 2.0 if setup.dual else 1.0
-    i_sec = setup.i_rated
-    reflect = np.where(setup.paths > 1.5, math.sqrt(2.0), 1.0)
-    in_phase = np.sum(ratio * i_sec * reflect, axis=0) + i_core
-    i_primary = np.sqrt(in_phase**2 + i_mag**2)
+@numba.njit(cache=True)
+def _solve_kernel(passes, final_passes, v_low, dual, i_core, i_mag, core_loss, n_eq, n_primary,
+                  ratio, v_target, i_rated, paths, current_density, diameters, enamel_nominal,
+                  enamel_increase, interlayer_limits, interlayer_thickness, lay_factor,
+                  bulge_factor, winding_width, order, interwinding, screen_thickness,
+                  outer_wrap, former_width, former_depth, former_offset, a, stack, ambient,
+                  temperature_cap, out_w, out_wire, out_n, out_ok):
+    """The fixed point of :func:`_solve`, one design (column) at a time, compiled.
 
-    turns_path = np.vstack([n_eq, ratio * n_eq])
-    turns = np.vstack([n_primary, setup.paths * ratio * n_eq])
-    wire_current = np.vstack([i_primary / parallel, i_sec])
-    index, diameter, available = _choose_wire(setup, wire_current, current_density)
-    overall = diameter + _enamel_increase(setup, diameter)
-    interlayer = _interlayer(setup, diameter)
-    per_layer, layers, builds, traverse_ok = _layering(setup, turns, overall, interlayer)
-    start, total_build = _positions(setup, builds)
-    mlt = mean_turn_length(setup.former_width, setup.former_depth, start, builds)
-    length = turns * mlt
-    r_end_20 = length * resistance_per_length(diameter, 20.0)
-    hot = 1.0 + COPPER_TEMPERATURE_COEFFICIENT_20C * (temperature - 20.0)
-    # Per conducting path: primary as connected for the lowest voltage; HV half if centre-tapped.
-    primary_share = (n_eq / n_primary) / parallel
-    r_path_20 = np.vstack([r_end_20[0] * primary_share, r_end_20[1:] / setup.paths])
-    r_path = r_path_20 * hot
+    Each pass chooses the wire (the smallest offered size for the current density), lays the
+    windings out layer by layer in their order on the bobbin, and computes resistances, losses
+    and the temperature rise (McLyman) for the current turns ratios and winding temperature; the
+    ratios are then re-solved for the rated loaded voltages (:func:`_regulated_ratios_of`),
+    integer secondary turns taken, and the temperature iterated to its fixed point.
 
-    e_primary = v_low - r_path[0] * (np.sum(ratio * i_sec, axis=0) + i_core)
-    copper_loss_each = np.vstack([i_primary**2 * r_path[0], setup.paths * i_sec**2 * r_path[1:]])
-    copper_loss = np.sum(copper_loss_each, axis=0)
-    surface = ei_outline_surface_area(setup.a, setup.stack, setup.former_offset + total_build)
-    rise = mclyman_temperature_rise(copper_loss + core_loss, surface)
-    return {
-        "i_primary": i_primary,
-        "turns": turns,
-        "turns_path": turns_path,
-        "wire_index": index,
-        "diameter": diameter,
-        "overall": overall,
-        "available": np.all(available, axis=0),
-        "interlayer": interlayer,
-        "per_layer": per_layer,
-        "layers": layers,
-        "builds": builds,
-        "start": start,
-        "total_build": total_build,
-        "traverse_ok": np.all(traverse_ok, axis=0),
-        "mlt": mlt,
-        "length": length,
-        "r_end_20": r_end_20 / np.vstack([np.full(setup.n, parallel), np.ones_like(r_end_20[1:])]),
-        "r_path_20": r_path_20,
-        "r_path": r_path,
-        "e_primary": e_primary,
-        "copper_loss_each": copper_loss_each,
-        "copper_loss": copper_loss,
-        "surface": surface,
-        "rise": rise,
-        "wire_current": wire_current,
-    }
+    Outputs (filled): ``out_w`` (K, W, n) per-winding figures in the order of
+    :data:`_W_FIELDS`; ``out_wire`` (W, n) wire indices; ``out_n`` (K, n) per-design figures
+    in the order of :data:`_N_FIELDS`; ``out_ok`` (3, n): wire available, traverse fits,
+    solvable.
+    """
+    S, n = v_target.shape
+    W = S + 1
+    parallel = 2.0 if dual else 1.0
+    D = diameters.shape[0]
+    turns = np.empty(W)
+    turns_path = np.empty(W)
+    wire_current = np.empty(W)
+    diameter = np.empty(W)
+    overall = np.empty(W)
+    interlayer = np.empty(W)
+    per_layer = np.empty(W)
+    layers = np.empty(W)
+    builds = np.empty(W)
+    start = np.empty(W)
+    mlt = np.empty(W)
+    length = np.empty(W)
+    r_end_20 = np.empty(W)
+    r_path_20 = np.empty(W)
+    r_path = np.empty(W)
+    loss_each = np.empty(W)
+    index = np.empty(W, np.int64)
+    rho = COPPER_RESISTIVITY_20C
+    alpha = COPPER_TEMPERATURE_COEFFICIENT_20C
+    for j in range(n):
+        r = ratio[:, j].copy()
+        temperature = ambient
+        previous = ambient
+        solvable = True
+        total_passes = passes + final_passes + 1
+        for step in range(total_passes):
+            if step == passes:  # integer secondary turns from here on
+                for s in range(S):
+                    r[s] = max(np.rint(r[s] * n_eq[j]), 1.0) / n_eq[j]
+            # ---- one pass (see the module's method)
+            in_phase = i_core[j]
+            loaded = i_core[j]
+            for s in range(S):
+                reflect = math.sqrt(2.0) if paths[s, j] > 1.5 else 1.0
+                in_phase += r[s] * i_rated[s, j] * reflect
+                loaded += r[s] * i_rated[s, j]
+            i_primary = math.sqrt(in_phase * in_phase + i_mag[j] * i_mag[j])
+            turns_path[0] = n_eq[j]
+            turns[0] = n_primary[j]
+            wire_current[0] = i_primary / parallel
+            for s in range(S):
+                turns_path[s + 1] = r[s] * n_eq[j]
+                turns[s + 1] = paths[s, j] * r[s] * n_eq[j]
+                wire_current[s + 1] = i_rated[s, j]
+            available = True
+            traverse = True
+            for w in range(W):
+                required = math.sqrt(4.0 * wire_current[w] / (math.pi * current_density[j]))
+                k = np.searchsorted(diameters, required)
+                if k >= D:
+                    available = False
+                    k = D - 1
+                index[w] = k
+                diameter[w] = diameters[k]
+                overall[w] = diameter[w] + np.interp(diameter[w], enamel_nominal,
+                                                     enamel_increase)
+                m = min(np.searchsorted(interlayer_limits, diameter[w]),
+                        interlayer_limits.shape[0] - 1)
+                interlayer[w] = interlayer_thickness[m]
+                p = math.floor(winding_width[j] / (overall[w] * lay_factor))
+                if p < 1.0:
+                    traverse = False
+                p = max(p, 1.0)
+                per_layer[w] = p
+                layers[w] = max(math.ceil(turns[w] / p - 1e-9), 1.0)
+                builds[w] = (layers[w] * overall[w] + (layers[w] - 1.0) * interlayer[w]) \
+                    * bulge_factor
+            cursor = 0.0
+            for k in range(order.shape[0]):
+                if k > 0:
+                    cursor += interwinding
+                row = order[k]
+                if row < 0:
+                    cursor += screen_thickness
+                else:
+                    start[row] = cursor
+                    cursor += builds[row]
+            total_build = cursor + outer_wrap
+            hot = 1.0 + alpha * (temperature - 20.0)
+            share = (n_eq[j] / n_primary[j]) / parallel
+            copper = 0.0
+            for w in range(W):
+                # physics.mean_turn_length and physics.resistance_per_length at 20 degC
+                mlt[w] = 2.0 * (former_width[j] + former_depth[j]) + 2.0 * math.pi * (
+                    start[w] + 0.5 * builds[w])
+                length[w] = turns[w] * mlt[w]
+                r_end_20[w] = length[w] * rho / (0.25 * math.pi * diameter[w] * diameter[w])
+                r_path_20[w] = r_end_20[0] * share if w == 0 else r_end_20[w] / paths[w - 1, j]
+                r_path[w] = r_path_20[w] * hot
+                if w == 0:
+                    loss_each[w] = i_primary * i_primary * r_path[0]
+                else:
+                    loss_each[w] = paths[w - 1, j] * i_rated[w - 1, j] ** 2 * r_path[w]
+                copper += loss_each[w]
+            e_primary = v_low - r_path[0] * loaded
+            # physics.ei_outline_surface_area and physics.mclyman_temperature_rise
+            surface = 2.0 * (7.5 * a[j] * a[j]) + 2.0 * (5.5 * a[j]) * (
+                stack[j] + 2.0 * (former_offset + total_build))
+            psi = (copper + core_loss[j]) / (surface * 1e4)
+            rise = 450.0 * max(psi, 0.0) ** 0.826
+            # ---- after the pass
+            if step < passes:
+                solvable = _regulated_ratios_of(r, r_path, v_target[:, j], i_rated[:, j],
+                                                v_low, i_core[j])
+            if step < total_passes - 1:
+                previous = temperature
+                temperature = min(ambient + rise, temperature_cap)
+        for w in range(W):
+            out_w[0, w, j] = turns[w]
+            out_w[1, w, j] = turns_path[w]
+            out_w[2, w, j] = diameter[w]
+            out_w[3, w, j] = overall[w]
+            out_w[4, w, j] = interlayer[w]
+            out_w[5, w, j] = per_layer[w]
+            out_w[6, w, j] = layers[w]
+            out_w[7, w, j] = builds[w]
+            out_w[8, w, j] = start[w]
+            out_w[9, w, j] = mlt[w]
+            out_w[10, w, j] = length[w]
+            out_w[11, w, j] = r_end_20[w] / (parallel if w == 0 else 1.0)
+            out_w[12, w, j] = r_path_20[w]
+            out_w[13, w, j] = r_path[w]
+            out_w[14, w, j] = loss_each[w]
+            out_w[15, w, j] = wire_current[w]
+            out_wire[w, j] = index[w]
+        for s in range(S):
+            ratio[s, j] = r[s]
+        out_n[0, j] = i_primary
+        out_n[1, j] = total_build
+        out_n[2, j] = e_primary
+        out_n[3, j] = copper
+        out_n[4, j] = surface
+        out_n[5, j] = rise
+        out_n[6, j] = temperature
+        out_n[7, j] = previous
+        out_ok[0, j] = available
+        out_ok[1, j] = traverse
+        out_ok[2, j] = solvable
 
 
-def _regulated_ratios(setup: _Setup, state, iron):
-    """Secondary turns ratios that give the rated loaded voltages, for the resistances of ``state``.
+@numba.njit(cache=True)
+def _regulated_ratios_of(r, r_path, v_target, i_rated, v_low, i_core):
+    """Secondary turns ratios that give the rated loaded voltages for the resistances of a pass,
+    for one design, in place on ``r``; returns whether they exist.
 
     With u_k = V_k + I_k R_k and E = V_1 - R_1 (sum n_k I_k + I_c), n_k = u_k / E gives
-    E^2 - (V_1 - R_1 I_c) E + R_1 sum u_k I_k = 0, whose larger root is taken.
+    E^2 - (V_1 - R_1 I_c) E + R_1 sum u_k I_k = 0, whose larger root is taken. Without a real
+    root the drops exceed what any turns ratio can make up; E then sits at the maximum-power
+    point V'/2 and the ratios are capped at twice the ideal (100 % compensation), which keeps
+    the figures of an infeasible design finite.
     """
-    i_core = iron[4]
-    r_primary = state["r_path"][0]
-    u = setup.v_target + setup.i_rated * state["r_path"][1:]
-    v_prime = setup.taps[0] - r_primary * i_core
-    discriminant = v_prime**2 - 4.0 * r_primary * np.sum(u * setup.i_rated, axis=0)
-    solvable = (discriminant > 0.0) & (v_prime > 0.0)
-    # Without a real root the drops exceed what any turns ratio can make up; E then sits at the
-    # maximum-power point V'/2 and the ratios are capped at twice the ideal (100 % compensation),
-    # which keeps the figures of an infeasible design finite.
-    e = np.maximum(0.5 * (v_prime + np.sqrt(np.maximum(discriminant, 0.0))), 0.5 * np.abs(v_prime))
-    e = np.maximum(e, 1e-3 * setup.taps[0])
-    ceiling = 2.0 * setup.v_target / setup.taps[0]
-    ratio = np.minimum(u / e, ceiling)
-    return ratio, solvable & np.all(ratio < ceiling, axis=0)
+    S = r.shape[0]
+    r_primary = r_path[0]
+    total = 0.0
+    for s in range(S):
+        total += (v_target[s] + i_rated[s] * r_path[s + 1]) * i_rated[s]
+    v_prime = v_low - r_primary * i_core
+    discriminant = v_prime * v_prime - 4.0 * r_primary * total
+    solvable = discriminant > 0.0 and v_prime > 0.0
+    e = max(0.5 * (v_prime + math.sqrt(max(discriminant, 0.0))), 0.5 * abs(v_prime))
+    e = max(e, 1e-3 * v_low)
+    for s in range(S):
+        ceiling = 2.0 * v_target[s] / v_low
+        r[s] = min((v_target[s] + i_rated[s] * r_path[s + 1]) / e, ceiling)
+        if not r[s] < ceiling:
+            solvable = False
+    return solvable
 
 
-def _winding_temperature(setup: _Setup, state):
-    # Copper melts at 1085 degC; capping the temperature used for hot resistance keeps the figures of
-    # a hopeless design finite (its reported rise stays uncapped and fails the class limit).
-    return np.minimum(setup.ambient + state["rise"], _TEMPERATURE_CAP)
+_W_FIELDS = ("turns", "turns_path", "diameter", "overall", "interlayer", "per_layer", "layers",
+             "builds", "start", "mlt", "length", "r_end_20", "r_path_20", "r_path",
+             "copper_loss_each", "wire_current")
+_N_FIELDS = ("i_primary", "total_build", "e_primary", "copper_loss", "surface", "rise",
+             "temperature", "previous")
 
 
 def _solve(setup: _Setup, current_density):
-    """Fixed point of turns, wire, geometry, resistance and temperature; then integer turns."""
+    """Fixed point of turns, wire, geometry, resistance and temperature; then integer turns
+    (:func:`_solve_kernel`)."""
     ideal = turns_for_voltage(setup.taps[:, None], setup.frequency, setup.b_target, setup.core_area)
     tap_turns = np.maximum(np.rint(ideal), 1.0)
     n_eq = tap_turns[0]
     n_primary = 2.0 * n_eq if setup.dual else tap_turns[-1]
     iron = _iron(setup, n_eq)
-    ratio = setup.v_target / setup.taps[0]
-    temperature = np.full(setup.n, setup.ambient)
-    for _ in range(_FIXED_POINT_PASSES):
-        state = _pass(setup, iron, n_eq, n_primary, ratio, temperature, current_density)
-        ratio, solvable = _regulated_ratios(setup, state, iron)
-        temperature = _winding_temperature(setup, state)
-    ratio = np.maximum(np.rint(ratio * n_eq), 1.0) / n_eq
-    previous = temperature
-    for _ in range(_FINAL_PASSES):
-        state = _pass(setup, iron, n_eq, n_primary, ratio, temperature, current_density)
-        previous, temperature = temperature, _winding_temperature(setup, state)
-    state = _pass(setup, iron, n_eq, n_primary, ratio, temperature, current_density)
+    ratio = np.ascontiguousarray(setup.v_target / setup.taps[0], dtype=float)
+    S, n = ratio.shape
+    W = S + 1
+    practice = setup.data.wire.winding_practice
+    points = setup.data.wire.enamel_build.points
+    rules = practice.interlayer
+    out_w = np.empty((len(_W_FIELDS), W, n))
+    out_wire = np.empty((W, n), np.int64)
+    out_n = np.empty((len(_N_FIELDS), n))
+    out_ok = np.empty((3, n), np.bool_)
+    f64 = lambda x: np.ascontiguousarray(np.broadcast_to(np.asarray(x, float), (n,)))  # noqa: E731
+    _solve_kernel(
+        _FIXED_POINT_PASSES, _FINAL_PASSES, float(setup.taps[0]), bool(setup.dual),
+        f64(iron[4]), f64(iron[3]), f64(iron[2]), f64(n_eq), f64(n_primary), ratio,
+        np.ascontiguousarray(setup.v_target, float), np.ascontiguousarray(setup.i_rated, float),
+        np.ascontiguousarray(np.broadcast_to(setup.paths, (S, n)), float),
+        f64(current_density), np.asarray(setup.wire.diameters, float),
+        np.array([q.nominal_diameter for q in points], float),
+        np.array([q.grade_1 if setup.enamel_grade == 1 else q.grade_2 for q in points], float),
+        np.array([q.up_to_diameter for q in rules], float),
+        np.array([setup.data.material(q.material).thickness for q in rules], float),
+        float(practice.lay_factor), float(practice.bulge_factor), f64(setup.winding_width),
+        np.array(setup.order, np.int64), float(setup.interwinding),
+        float(setup.screen_thickness), float(setup.outer_wrap), f64(setup.former_width),
+        f64(setup.former_depth), float(setup.former_offset), f64(setup.a), f64(setup.stack),
+        float(setup.ambient), _TEMPERATURE_CAP, out_w, out_wire, out_n, out_ok)
+    state = {name: out_w[k] for k, name in enumerate(_W_FIELDS)}
+    state.update({name: out_n[k] for k, name in enumerate(_N_FIELDS)})
+    temperature, previous = state.pop("temperature"), state.pop("previous")
     state.update(
+        wire_index=out_wire,
+        available=out_ok[0],
+        traverse_ok=out_ok[1],
         ratio=ratio,
         tap_turns=tap_turns,
         iron=iron,
         temperature=temperature,
-        solvable=solvable,
+        solvable=out_ok[2],
         converged=np.abs(temperature - previous) < 0.05,
     )
     return state
