@@ -261,6 +261,7 @@ class CoDesign:
         self._mains = Mains.model_construct(voltage=spec.mains.voltage,
                                             frequency=spec.mains.frequency)
         self._rectifiers = [self._rectifier_model(o) for o in c.rectifiers]
+        self._rectifier_heaters = [self.rectifier_heater(o) for o in c.rectifiers]
         self._check_prices()
         self._resistor_classes = sorted(parts.load_catalogue("resistor").values(),
                                         key=lambda p: p.power)
@@ -386,7 +387,7 @@ class CoDesign:
         (with or without a rectifier heater winding): [(member rows, TransformerPopulation)]."""
         s = self.spec
         options = s.choices.rectifiers
-        heater = [self.rectifier_heater(options[int(r)]) for r in rectifier]
+        heater = [self._rectifier_heaters[int(r)] for r in rectifier]
         out = []
         for with_heater in (False, True):
             members = np.array([b for b in range(len(rectifier))
@@ -956,6 +957,8 @@ def optimise(spec: Spec, *, population=None, generations=None, seed=None, worker
 
     settings = spec.search
     binding = CoDesign(spec)
+    if binding.batch_independent:
+        binding.screen  # made (and calibrated) before the search, not in its first generation
     result = search.run(binding, population=population or settings.population,
                         generations=generations or settings.generations,
                         seed=settings.seed if seed is None else seed,
