@@ -70,11 +70,10 @@ class CycleFigures:
         Newton's method met its tolerance and the pulse is a single positive one.
     node : ndarray (B, GRID)
         Reservoir node voltage over one half-cycle, uniformly sampled from the start. [V]
-    source, terminal, current : ndarray (B, GRID + PULSE_GRID)
-        EMF, winding terminal voltage and path current at the samples of ``node`` followed by
-        samples over the pulse. [V], [V], [A]
-    rectifier_node : ndarray (B, GRID + PULSE_GRID)
-        Reservoir node voltage at the same samples. [V]
+    current : ndarray (B, GRID + PULSE_GRID)
+        Path current at the samples of ``node`` followed by samples over the pulse. [A]
+    piv : ndarray
+        Largest reverse voltage across a blocked rectifying element. [V]
     peak_current, mean_square_current : ndarray
         Path current's peak and its mean square over the half-cycle. [A], [A^2]
     """
@@ -83,10 +82,8 @@ class CycleFigures:
     length: np.ndarray
     converged: np.ndarray
     node: np.ndarray
-    source: np.ndarray
-    terminal: np.ndarray
     current: np.ndarray
-    rectifier_node: np.ndarray
+    piv: np.ndarray
     peak_current: np.ndarray
     mean_square_current: np.ndarray
 
@@ -257,8 +254,7 @@ def _half_angle(ratio):
 
 @numba.njit(cache=True)
 def _cycle_kernel(peak, omega, resistance, inductance, capacitance, esr, constant, conductance,
-                  si, vv, sat, n_e, r_s, perveance, node, source, terminal, current, rect_node,
-                  scalars):
+                  si, vv, sat, n_e, r_s, perveance, topology, node, current, scalars):
     """Each row's reservoir cycle (see :func:`reservoir_cycle`); fills the output arrays."""
     count = peak.shape[0]
     pulse_i = np.empty(PULSE_GRID)
@@ -315,6 +311,7 @@ def _cycle_kernel(peak, omega, resistance, inductance, capacitance, esr, constan
         v_end = pulse_v[PULSE_GRID - 1]
         square = 0.0
         single = True
+        piv = -np.inf
         _samples(R, L, C, l1, l2, w, load, v_dc, ip, vp, t1, y0, y1, half / GRID, GRID,
                  grid_i, grid_v, grid_s)
         for k in range(GRID + PULSE_GRID):
@@ -334,17 +331,28 @@ def _cycle_kernel(peak, omega, resistance, inductance, capacitance, esr, constan
                     single = False
             src = E * abs(sine)
             di = (E * sine - V - R * i - v) / L if on else 0.0
-            source[b, k] = src
-            terminal[b, k] = src - resistance[b] * i - L * di
+            rect = v + esr_b * (i - load)
             current[b, k] = i
-            rect_node[b, k] = v + esr_b * (i - load)
             if k < GRID:
-                node[b, k] = rect_node[b, k]
+                node[b, k] = rect
+            # the reverse voltage on a blocked element (as the simulator's figures take it)
+            if topology[b] == 0:  # bridge: half of output plus winding terminal
+                reverse = 0.5 * (rect + src - resistance[b] * i - L * di)
+            elif topology[b] == 2:  # hybrid bridge: the conducting element's drop on top
+                reverse = rect
+                if i > 0.0:
+                    junction = n_e[b] * rectifier.THERMAL_VOLTAGE * np.log1p(i / sat[b]) \
+                        + r_s[b] * i
+                    reverse += max(junction, np.cbrt(i / perveance[b]) ** 2)
+            else:  # centre-tap: output plus the other half-winding
+                reverse = rect + src
+            piv = max(piv, reverse)
         scalars[b, 0] = t1
         scalars[b, 1] = tc
         scalars[b, 2] = 1.0 if (converged and single and tc < 0.9 * half) else 0.0
         scalars[b, 3] = peak_i
         scalars[b, 4] = square * tc / (PULSE_GRID - 1) / half
+        scalars[b, 5] = piv
 
 
 @numba.njit(cache=True)
@@ -386,7 +394,7 @@ def _surge_kernel(peak, omega, resistance, inductance, capacitance, esr, si, vv,
 
 
 def reservoir_cycle(peak, frequency, resistance, inductance, capacitance, esr, load,
-                    elements: rectifier.PathElements, conductance=None):
+                    elements: rectifier.PathElements, conductance=None, topology=None):
     """Periodic steady state of the rectifier and reservoir of full-wave supplies.
 
     Parameters
@@ -405,6 +413,8 @@ def reservoir_cycle(peak, frequency, resistance, inductance, capacitance, esr, l
     conductance : ndarray (B,), optional
         Resistive load (bleeders) on the supply, taken at the reservoir's DC voltage (refined
         pass by pass). [S]
+    topology : ndarray of str (B,), optional
+        ``bridge``, ``centre-tap`` (the default) or ``hybrid-bridge``, for the reverse voltage.
 
     Returns
     -------
@@ -418,20 +428,19 @@ def reservoir_cycle(peak, frequency, resistance, inductance, capacitance, esr, l
     f64 = lambda x: np.ascontiguousarray(np.broadcast_to(np.asarray(x, float), (count,)))  # noqa: E731
     omega = 2.0 * np.pi * f64(frequency)
     conductance = np.zeros(count) if conductance is None else conductance
-    width = GRID + PULSE_GRID
+    codes = np.zeros(count, np.int64) if topology is None else np.select(
+        [np.asarray(topology) == "bridge", np.asarray(topology) == "hybrid-bridge"], [0, 2], 1)
     node = np.empty((count, GRID))
-    source, terminal, current, rect_node = (np.empty((count, width)) for _ in range(4))
-    scalars = np.empty((count, 5))
+    current = np.empty((count, GRID + PULSE_GRID))
+    scalars = np.empty((count, 6))
     el = elements
     _cycle_kernel(f64(peak), omega, f64(resistance), f64(inductance), f64(capacitance), f64(esr),
                   f64(load), f64(conductance), f64(el.silicon_count), f64(el.valve_count),
                   f64(el.saturation_current), f64(el.emission_coefficient),
-                  f64(el.series_resistance), f64(el.perveance), node, source, terminal, current,
-                  rect_node, scalars)
+                  f64(el.series_resistance), f64(el.perveance), codes, node, current, scalars)
     return CycleFigures(start=scalars[:, 0], length=scalars[:, 1], converged=scalars[:, 2] > 0.5,
-                        node=node, source=source, terminal=terminal, current=current,
-                        rectifier_node=rect_node, peak_current=scalars[:, 3],
-                        mean_square_current=scalars[:, 4])
+                        node=node, current=current, piv=scalars[:, 5],
+                        peak_current=scalars[:, 3], mean_square_current=scalars[:, 4])
 
 
 def _ladder_admittances(w, capacitance, esr, feed_resistance, feed_inductance, conductance):
@@ -553,8 +562,8 @@ def _ladder_kernel(reservoir, path_current, drawn, frequency, capacitance, esr, 
             node_peak[b, k] = max(high, 0.0)
 
 
-def steady_state(values, elements: rectifier.PathElements, peak, frequency, topology,
-                 winding_resistance, winding_inductance) -> dict:
+def steady_state(values, elements: rectifier.PathElements, peak, frequency,
+                 topology) -> dict:
     """Every steady-state figure of a batch of supplies, under the names
     :func:`optimiser.evaluation.figures` gives them (those a screen needs).
 
@@ -569,8 +578,6 @@ def steady_state(values, elements: rectifier.PathElements, peak, frequency, topo
         [Hz]
     topology : ndarray of str (B,)
         ``bridge``, ``centre-tap`` or ``hybrid-bridge``.
-    winding_resistance, winding_inductance : ndarray (B,)
-        The winding's share of the path (for its terminal voltage). [ohm], [H]
 
     Returns
     -------
@@ -599,7 +606,7 @@ def steady_state(values, elements: rectifier.PathElements, peak, frequency, topo
     cycle = reservoir_cycle(peak, frequency, v.path_resistance, v.path_inductance,
                             v.capacitance[:, 0] + extra, v.esr[:, 0],
                             v.load_current[:, 0] + after_a, elements,
-                            conductance=v.load_conductance[:, 0] + after_b)
+                            conductance=v.load_conductance[:, 0] + after_b, topology=topology)
     dc = np.empty((count, n))
     dc[:, 0] = cycle.node.mean(axis=1)
     reservoir = dc[:, :1] + damping[:, None] * (cycle.node - dc[:, :1])
@@ -627,18 +634,6 @@ def steady_state(values, elements: rectifier.PathElements, peak, frequency, topo
     feed_rms = np.sqrt(feed_dc ** 2 + feed_ms)
     feed_rms[:, 0] = 0.0
     i_sq = cycle.mean_square_current
-    cur = cycle.current
-    rect = cycle.rectifier_node
-    v_si = rectifier.shockley_voltage(cur, elements.saturation_current[:, None],
-                                      elements.emission_coefficient[:, None],
-                                      elements.series_resistance[:, None])
-    v_valve = rectifier.child_langmuir_voltage(cur, elements.perveance[:, None])
-    topo = np.asarray(topology)[:, None]
-    piv_bridge = 0.5 * (rect + cycle.terminal)
-    piv_hybrid = np.where(cur > 0, rect + np.maximum(v_si, v_valve), rect)
-    piv_ct = rect + cycle.source
-    piv = np.where(topo == "bridge", piv_bridge,
-                   np.where(topo == "hybrid-bridge", piv_hybrid, piv_ct)).max(axis=1)
     whole = np.asarray(topology) != "centre-tap"
     return {
         "dc_voltage": dc,
@@ -650,7 +645,7 @@ def steady_state(values, elements: rectifier.PathElements, peak, frequency, topo
         "rectifier_peak_current": cycle.peak_current,
         "rectifier_average_current": 0.5 * downstream[:, 0],
         "rectifier_rms_current": np.sqrt(0.5 * i_sq),
-        "piv": piv,
+        "piv": cycle.piv,
         "secondary_rms_current": np.where(whole, np.sqrt(i_sq), np.sqrt(0.5 * i_sq)),
         "converged": cycle.converged,
     }

@@ -329,8 +329,7 @@ class Screen:
         elements = PathElements(**{f: np.tile(v, reps) for f, v in el.items()})
         figs = analytic.steady_state(stacked, elements, np.concatenate(corner_peak),
                                      np.full(rows * reps, self.frequency),
-                                     np.tile(topology, reps), np.tile(r_w, reps),
-                                     np.tile(l_w, reps))
+                                     np.tile(topology, reps))
         f = {name: {key: value[i * rows:(i + 1) * rows] for key, value in figs.items()}
              for i, (name, _, _) in enumerate(CORNERS)}
         failed = ~np.all([f[c]["converged"] for c, _, _ in CORNERS], axis=0)

@@ -95,8 +95,7 @@ def simulator_and_screen(spec_path, seed):
             full = figures(batch, *solve_batch(batch))
             screen = analytic.steady_state(batch.values, batch.elements, batch.peak,
                                            np.full(len(group), batch.frequency),
-                                           batch.topology, batch.winding_resistance,
-                                           batch.winding_inductance)
+                                           batch.topology)
             pairs.append((full, screen))
     return pairs
 
