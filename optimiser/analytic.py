@@ -45,7 +45,7 @@ __all__ = ["CycleFigures", "reservoir_cycle", "steady_state",
 GRID = 48
 #: Harmonics of the reservoir's ripple carried down the ladder (each filter section takes them
 #: down by at least the first order, so the higher ones do not move a filtered node's p-p).
-HARMONICS = 12
+HARMONICS = 6
 #: Samples over one conduction pulse (for the current's peak and RMS).
 PULSE_GRID = 24
 #: Newton iterations on the conduction start and length.
@@ -252,18 +252,18 @@ def _half_angle(ratio):
     return phi
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, parallel=True)
 def _cycle_kernel(peak, omega, resistance, inductance, capacitance, esr, constant, conductance,
                   si, vv, sat, n_e, r_s, perveance, topology, node, current, scalars):
     """Each row's reservoir cycle (see :func:`reservoir_cycle`); fills the output arrays."""
     count = peak.shape[0]
-    pulse_i = np.empty(PULSE_GRID)
-    pulse_v = np.empty(PULSE_GRID)
-    pulse_s = np.empty(PULSE_GRID)
-    grid_i = np.empty(GRID)
-    grid_v = np.empty(GRID)
-    grid_s = np.empty(GRID)
-    for b in range(count):
+    for b in numba.prange(count):  # rows are independent: threads split them
+        pulse_i = np.empty(PULSE_GRID)
+        pulse_v = np.empty(PULSE_GRID)
+        pulse_s = np.empty(PULSE_GRID)
+        grid_i = np.empty(GRID)
+        grid_v = np.empty(GRID)
+        grid_s = np.empty(GRID)
         E, w, C, esr_b = peak[b], omega[b], capacitance[b], esr[b]
         half = np.pi / w
         v_dc_est = E
@@ -355,11 +355,11 @@ def _cycle_kernel(peak, omega, resistance, inductance, capacitance, esr, constan
         scalars[b, 5] = piv
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, parallel=True)
 def _surge_kernel(peak, omega, resistance, inductance, capacitance, esr, si, vv, sat, n_e, r_s,
                   perveance, out):
     """Each row's switch-on from rest at the crest (see :func:`surge`)."""
-    for b in range(peak.shape[0]):
+    for b in numba.prange(peak.shape[0]):  # rows are independent: threads split them
         E, w, C = peak[b], omega[b], capacitance[b]
         half = np.pi / w
         peak_i = E / max(resistance[b] + esr[b], 1e-3)
@@ -485,7 +485,7 @@ def downstream_capacitance(frequency, capacitance, esr, feed_resistance, feed_in
     return extra, np.minimum(damping, 1.0)
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, parallel=True)
 def _ladder_kernel(reservoir, path_current, drawn, frequency, capacitance, esr, feed_r, feed_l,
                    conductance, dc, cos_t, sin_t, ripple, node_peak, cap_ms, feed_ms, cross):
     """Each row's ladder ripple from its reservoir waveform (see :func:`steady_state`).
@@ -496,13 +496,13 @@ def _ladder_kernel(reservoir, path_current, drawn, frequency, capacitance, esr, 
     count, n = capacitance.shape
     M = reservoir.shape[1]
     H = cos_t.shape[1]
-    X = np.empty(H, np.complex128)
-    A = np.empty(H, np.complex128)
-    phasor = np.empty((H, n), np.complex128)
-    shunt_z = np.empty(n, np.complex128)
-    series = np.empty(n, np.complex128)
-    total = np.empty(n, np.complex128)
-    for b in range(count):
+    for b in numba.prange(count):  # rows are independent: threads split them
+        X = np.empty(H, np.complex128)
+        A = np.empty(H, np.complex128)
+        phasor = np.empty((H, n), np.complex128)
+        shunt_z = np.empty(n, np.complex128)
+        series = np.empty(n, np.complex128)
+        total = np.empty(n, np.complex128)
         mean = 0.0
         for m in range(M):
             mean += reservoir[b, m] / M

@@ -666,7 +666,7 @@ def _iron(setup: _Setup, primary_turns):
     return b, steel_mass, core_loss, magnetising, core_loss / v_low
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, parallel=True)
 def _solve_kernel(passes, final_passes, v_low, dual, i_core, i_mag, core_loss, n_eq, n_primary,
                   ratio, v_target, i_rated, paths, current_density, diameters, enamel_nominal,
                   enamel_increase, interlayer_limits, interlayer_thickness, lay_factor,
@@ -690,26 +690,26 @@ def _solve_kernel(passes, final_passes, v_low, dual, i_core, i_mag, core_loss, n
     W = S + 1
     parallel = 2.0 if dual else 1.0
     D = diameters.shape[0]
-    turns = np.empty(W)
-    turns_path = np.empty(W)
-    wire_current = np.empty(W)
-    diameter = np.empty(W)
-    overall = np.empty(W)
-    interlayer = np.empty(W)
-    per_layer = np.empty(W)
-    layers = np.empty(W)
-    builds = np.empty(W)
-    start = np.empty(W)
-    mlt = np.empty(W)
-    length = np.empty(W)
-    r_end_20 = np.empty(W)
-    r_path_20 = np.empty(W)
-    r_path = np.empty(W)
-    loss_each = np.empty(W)
-    index = np.empty(W, np.int64)
     rho = COPPER_RESISTIVITY_20C
     alpha = COPPER_TEMPERATURE_COEFFICIENT_20C
-    for j in range(n):
+    for j in numba.prange(n):  # designs are independent: threads split them
+        turns = np.empty(W)
+        turns_path = np.empty(W)
+        wire_current = np.empty(W)
+        diameter = np.empty(W)
+        overall = np.empty(W)
+        interlayer = np.empty(W)
+        per_layer = np.empty(W)
+        layers = np.empty(W)
+        builds = np.empty(W)
+        start = np.empty(W)
+        mlt = np.empty(W)
+        length = np.empty(W)
+        r_end_20 = np.empty(W)
+        r_path_20 = np.empty(W)
+        r_path = np.empty(W)
+        loss_each = np.empty(W)
+        index = np.empty(W, np.int64)
         r = ratio[:, j].copy()
         temperature = ambient
         previous = ambient
