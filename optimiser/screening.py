@@ -95,6 +95,17 @@ class Screen:
         series = [parts.find_part("capacitor", ch.series) for ch in binding.capacitor_choice]
         self.series = series
         self.tol_plus = np.array([sr.tolerance.plus for sr in series])
+        # per node, the ratings its series offers: voltage, value range, tan delta, surge
+        self.capacitor_ratings = []
+        for choice, sr in zip(binding.capacitor_choice, series):
+            offered = choice.ratings()
+            self.capacitor_ratings.append((
+                np.array([r.rated for r in offered]),
+                np.array([r.min_capacitance for r in offered]) * (1 - 1e-9),
+                np.array([r.max_capacitance for r in offered]) * (1 + 1e-9),
+                np.array([sr.tan_delta if sr.rating(r.rated).tan_delta is None
+                          else sr.rating(r.rated).tan_delta for r in offered]),
+                np.array([sr.rating(r.rated).surge for r in offered])))
         self.frequency = s.mains.frequency
         self.full = np.array([ns.full_power_current for ns in s.nodes])
         self.idle = np.array([ns.idle_current for ns in s.nodes])
@@ -205,10 +216,7 @@ class Screen:
         out["made"] = np.zeros((count, self.n), bool)
         f2 = 2.0 * self.frequency
         for k, sr in enumerate(self.series):
-            ratings_ = self.b.capacitor_choice[k].ratings()
-            rated = np.array([r.rated for r in ratings_])
-            lo = np.array([r.min_capacitance for r in ratings_]) * (1 - 1e-9)
-            hi = np.array([r.max_capacitance for r in ratings_]) * (1 + 1e-9)
+            rated, lo, hi, tan_by_rating, surge_by_rating = self.capacitor_ratings[k]
             c = capacitance[:, k]
             first = np.searchsorted(rated, crest, side="left")
             first = np.minimum(first, len(rated) - 1)
@@ -218,13 +226,12 @@ class Screen:
             made = made_at.any(axis=1)
             j = np.where(made, np.argmax(made_at, axis=1), i)
             v = rated[j]
-            tan = np.array([sr.rating(r).tan_delta if sr.rating(r).tan_delta is not None
-                            else sr.tan_delta for r in rated])[j]
+            tan = tan_by_rating[j]
             out["rated"][:, k] = v
             out["made"][:, k] = made
             out["esr"][:, k] = round_significant(tan / (2.0 * np.pi * f2 * c), 3)
             out["ripple"][:, k] = sr.ripple_rating(c, v)
-            out["surge"][:, k] = np.array([sr.rating(r).surge for r in rated])[j]
+            out["surge"][:, k] = surge_by_rating[j]
             out["cost"][:, k] = sr.cost(c, v)
         return out
 
