@@ -659,11 +659,24 @@ def _iron(setup: _Setup, primary_turns):
     specific_loss = steinmetz_loss(setup.frequency, b, k, alpha, beta)
     core_loss = steel_mass * specific_loss * data.lamination.core_loss_building_factor
     field = np.zeros(setup.n)
-    for s, steel in enumerate(data.steels):
+    for s in np.unique(setup.steel):  # the steels in use (each curve is an interpolation)
+        steel = data.steels[int(s)]
         field = np.where(setup.steel == s, magnetising_field(b, steel.magnetisation), field)
     ampere_turns = field * ei_magnetic_path_length(setup.a) + b * data.lamination.joint_equivalent_gap / _MU_0
     magnetising = ampere_turns / (math.sqrt(2.0) * primary_turns)
     return b, steel_mass, core_loss, magnetising, core_loss / v_low
+
+
+@numba.njit(cache=True)
+def _interp(x, xp, fp):
+    """np.interp for one point (flat beyond the ends), without an array in between."""
+    if x <= xp[0]:
+        return fp[0]
+    last = xp.shape[0] - 1
+    if x >= xp[last]:
+        return fp[last]
+    k = np.searchsorted(xp, x, side="right") - 1
+    return fp[k] + (fp[k + 1] - fp[k]) * (x - xp[k]) / (xp[k + 1] - xp[k])
 
 
 @numba.njit(cache=True, parallel=True)
@@ -744,8 +757,7 @@ def _solve_kernel(passes, final_passes, v_low, dual, i_core, i_mag, core_loss, n
                     k = D - 1
                 index[w] = k
                 diameter[w] = diameters[k]
-                overall[w] = diameter[w] + np.interp(diameter[w], enamel_nominal,
-                                                     enamel_increase)
+                overall[w] = diameter[w] + _interp(diameter[w], enamel_nominal, enamel_increase)
                 m = min(np.searchsorted(interlayer_limits, diameter[w]),
                         interlayer_limits.shape[0] - 1)
                 interlayer[w] = interlayer_thickness[m]
