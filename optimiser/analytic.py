@@ -46,6 +46,8 @@ GRID = 48
 #: Harmonics of the reservoir's ripple carried down the ladder (each filter section takes them
 #: down by at least the first order, so the higher ones do not move a filtered node's p-p).
 HARMONICS = 6
+_DFT_ANGLE = 2.0 * np.pi * np.outer(np.arange(GRID), np.arange(1, HARMONICS + 1)) / GRID
+_DFT_COS, _DFT_SIN = np.cos(_DFT_ANGLE), np.sin(_DFT_ANGLE)
 #: Samples over one conduction pulse (for the current's peak and RMS).
 PULSE_GRID = 24
 #: Newton iterations on the conduction start and length.
@@ -360,6 +362,9 @@ def _surge_kernel(peak, omega, resistance, inductance, capacitance, esr, si, vv,
                   perveance, out):
     """Each row's switch-on from rest at the crest (see :func:`surge`)."""
     for b in numba.prange(peak.shape[0]):  # rows are independent: threads split them
+        i_a, v_a, s_a = np.empty(PULSE_GRID), np.empty(PULSE_GRID), np.empty(PULSE_GRID)
+        i_b, v_b, s_b = (np.empty(2 * PULSE_GRID), np.empty(2 * PULSE_GRID),
+                         np.empty(2 * PULSE_GRID))
         E, w, C = peak[b], omega[b], capacitance[b]
         half = np.pi / w
         peak_i = E / max(resistance[b] + esr[b], 1e-3)
@@ -370,21 +375,20 @@ def _surge_kernel(peak, omega, resistance, inductance, capacitance, esr, si, vv,
             R = resistance[b] + slope + esr[b]
             L, l1, l2, v_dc, ip, vp = _circuit(E, w, R, inductance[b], C, 0.0, offset)
             # the quarter cycle from the crest, then the next half-cycle from where it left off
+            ip0, vp0, _, _ = _particular(w, 0.0, v_dc, ip, vp, 0.5 * half)
+            _samples(R, L, C, l1, l2, w, 0.0, v_dc, ip, vp, 0.5 * half, -ip0, -vp0,
+                     0.5 * half / (PULSE_GRID - 1), PULSE_GRID, i_a, v_a, s_a)
+            ip0, vp0, _, _ = _particular(w, 0.0, v_dc, ip, vp, 0.0)
+            _samples(R, L, C, l1, l2, w, 0.0, v_dc, ip, vp, 0.0, i_a[PULSE_GRID - 1] - ip0,
+                     v_a[PULSE_GRID - 1] - vp0, half / (2 * PULSE_GRID - 1), 2 * PULSE_GRID,
+                     i_b, v_b, s_b)
             best_i, best_v = 0.0, -np.inf
-            i_end = v_end = 0.0
-            ended = False
-            for k in range(PULSE_GRID + 2 * PULSE_GRID - 1):
+            for k in range(3 * PULSE_GRID - 1):
                 if k < PULSE_GRID:
-                    tau = 0.5 * half * k / (PULSE_GRID - 1)
-                    i, v = _state(R, L, C, l1, l2, w, 0.0, v_dc, ip, vp, 0.5 * half, 0.0, 0.0,
-                                  tau)
-                    i_end, v_end = i, v
+                    i, v = i_a[k], v_a[k]
                 else:
-                    tau = half * (k - PULSE_GRID + 1) / (2 * PULSE_GRID - 1)
-                    i, v = _state(R, L, C, l1, l2, w, 0.0, v_dc, ip, vp, 0.0, i_end, v_end, tau)
-                if k > 0 and i < 0.0:
-                    ended = True
-                if ended:
+                    i, v = i_b[k - PULSE_GRID + 1], v_b[k - PULSE_GRID + 1]
+                if k > 0 and i < 0.0:  # the pulse has ended (the first sample is the rest)
                     break
                 best_i = max(best_i, i)
                 best_v = max(best_v, v)
@@ -618,11 +622,10 @@ def steady_state(values, elements: rectifier.PathElements, peak, frequency,
         dc[:, k] = dc[:, k - 1] - v.feed_resistance[:, k] * downstream[:, k]
     ripple, node_peak, cap_ms, feed_ms = (np.empty((count, n)) for _ in range(4))
     cross = np.empty(count)
-    angle = 2.0 * np.pi * np.outer(np.arange(GRID), np.arange(1, HARMONICS + 1)) / GRID
     _ladder_kernel(np.ascontiguousarray(reservoir), np.ascontiguousarray(cycle.current[:, :GRID]),
                    downstream[:, 0].copy(), np.ascontiguousarray(frequency, float),
                    v.capacitance, v.esr, v.feed_resistance, v.feed_inductance,
-                   v.load_conductance, dc, np.cos(angle), np.sin(angle), ripple, node_peak,
+                   v.load_conductance, dc, _DFT_COS, _DFT_SIN, ripple, node_peak,
                    cap_ms, feed_ms, cross)
     cap_rms = np.sqrt(cap_ms)
     # the reservoir's capacitor carries the path current (mean: the DC drawn) less the ladder's
