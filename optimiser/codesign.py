@@ -382,25 +382,33 @@ class CoDesign:
     # ---------------------------------------------------------------- designs
 
     def transformer_populations(self, core_stack, hv_voltage, hv_current, current_density,
-                                rectifier):
-        """The physical transformers of designs (arrays (B,)), in one vectorised pass per kind
-        (with or without a rectifier heater winding): [(member rows, TransformerPopulation)]."""
+                                rectifier, *, one_pass=False):
+        """The physical transformers of designs (arrays (B,)): [(member rows,
+        TransformerPopulation)].
+
+        One vectorised pass per kind (with or without a rectifier heater winding), or with
+        ``one_pass`` a single pass in which the designs without a valve rectifier have its heater
+        winding at 0 V (not wound: the same figures, one call fewer).
+        """
         s = self.spec
         options = s.choices.rectifiers
         heater = [self._rectifier_heaters[int(r)] for r in rectifier]
         out = []
-        for with_heater in (False, True):
+        kinds = ((None,) if one_pass else (False, True))
+        for with_heater in kinds:
             members = np.array([b for b in range(len(rectifier))
-                                if (heater[b] is not None) == with_heater], int)
+                                if with_heater is None or (heater[b] is not None) == with_heater],
+                               int)
             if not members.size:
                 continue
             ct = np.array([options[int(rectifier[b])].centre_tapped for b in members])
             heaters = [AuxiliaryWinding(h.name, h.voltage, h.current, h.centre_tap)
                        for h in s.heaters]
-            if with_heater:
+            wound = [heater[b] for b in members]
+            if with_heater or (with_heater is None and any(h is not None for h in wound)):
                 heaters.append(AuxiliaryWinding(
-                    RECTIFIER_HEATER, np.array([heater[b][0] for b in members]),
-                    np.array([heater[b][1] for b in members])))
+                    RECTIFIER_HEATER, np.array([h[0] if h else 0.0 for h in wound]),
+                    np.array([h[1] if h else 0.0 for h in wound])))
             bias = (AuxiliaryWinding("bias", s.bias.voltage, s.bias.current, s.bias.centre_tap)
                     if s.bias is not None else None)
             t = s.transformer

@@ -247,7 +247,7 @@ class Screen:
             for members, pop in self.b.transformer_populations(
                     choice["core_stack"][rows], choice["hv_voltage"][rows],
                     choice["hv_current"][rows], choice["current_density"][rows],
-                    choice["rectifier"][rows]):
+                    choice["rectifier"][rows], one_pass=True):
                 ok = np.ones(len(members), bool)
                 for name in _BUILDABLE_FIELDS:
                     ok &= np.asarray(getattr(pop, name), bool)

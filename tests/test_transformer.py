@@ -100,6 +100,25 @@ def test_the_compiled_passes_use_the_physics_modules_formulas():
         pop.total_loss, pop.surface_area), rtol=1e-12)
 
 
+def test_a_winding_of_no_volts_is_not_wound():
+    # designs with and without a second heater in one call: where it is 0 V / 0 A every figure
+    # is that of the transformer designed without it (derived: nothing is wound, so nothing
+    # changes), and the design drawn from the population does not list it
+    kw = dict(hv_voltage=np.array([250.0, 300.0, 380.0]), hv_rms_current=np.array([0.12, 0.2, 0.3]))
+    extra = tr.AuxiliaryWinding("rectifier", np.array([5.0, 0.0, 6.3]), np.array([2.0, 0.0, 1.2]))
+    both = typical(heaters=[tr.AuxiliaryWinding("heater", 6.3, 3.0, centre_tapped=True), extra], **kw)
+    plain = typical(**kw)
+    for name in ("hv_open_circuit_voltage", "hv_series_resistance", "hv_leakage_inductance",
+                 "cost", "temperature_rise", "build_ratio", "mass", "total_build"):
+        assert getattr(both, name)[1] == getattr(plain, name)[1], name
+        assert getattr(both, name)[0] != getattr(plain, name)[0], name
+    assert [w.name for w in both.design(1).windings] == [w.name for w in plain.design(1).windings]
+    assert "rectifier" not in both.design(1).winding_order
+    with pytest.raises(ValueError, match="not wound"):
+        typical(heaters=[tr.AuxiliaryWinding("rectifier", np.array([5.0, 0.0, 6.3]),
+                                             np.array([2.0, 0.5, 1.2]))], **kw)
+
+
 def test_wire_snaps_up_to_a_real_size():
     # 1 A at 2.5 A/mm^2 needs 0.4 mm^2, i.e. 0.714 mm bare (derived by hand).
     # Source: IEC 60317-0-1 R20 series: next size up is 0.80 mm (from memory — verify).

@@ -60,7 +60,9 @@ class AuxiliaryWinding:
     name : str
         Name used in the winding order and on the order sheet.
     voltage : array_like
-        RMS voltage at rated load, end to end. [V]
+        RMS voltage at rated load, end to end; 0 (with a current of 0) where the winding is not
+        wound on a design: that design's figures are then those of a transformer without it,
+        and :meth:`TransformerPopulation.design` leaves it out. [V]
     rms_current : array_like
         RMS current rating. [A]
     centre_tapped : bool
@@ -394,12 +396,16 @@ class TransformerPopulation(_TransformerFigures):
         if not -self.size <= index < self.size:
             raise IndexError(f"design index {index} out of range for a population of {self.size}")
         values = {}
+        absent = {w.name for w in self.windings[2:] if w.rated_voltage[index] == 0}
         for f in dataclasses.fields(_TransformerFigures):
             value = getattr(self, f.name)
-            if f.name in _SHARED_FIELDS:
+            if f.name == "winding_order":
+                values[f.name] = tuple(name for name in value if name not in absent)
+            elif f.name in _SHARED_FIELDS:
                 values[f.name] = value
             elif f.name == "windings":
-                values[f.name] = tuple(_take_winding(w, index) for w in value)
+                values[f.name] = tuple(_take_winding(w, index) for w in value
+                                       if w.name not in absent)
             elif f.name == "primary_tap_turns":
                 values[f.name] = tuple(float(t) for t in value[:, index])
             else:
@@ -523,10 +529,15 @@ def _population_arrays(data: TransformerData, columns: dict, aux: Sequence[Auxil
         bad = (values != np.rint(values)) | (values < 0) | (values >= limit)
         if np.any(bad):
             raise ValueError(f"{name} must be whole numbers 0..{limit - 1}, got {values[bad][0]!r}")
-    for name in ("stack", "max_flux_density", "hv_voltage", sizing_name) + tuple(f"{w.name}.voltage" for w in aux):
+    for name in ("stack", "max_flux_density", "hv_voltage", sizing_name):
         _check_positive(name, arrays[name])
     for name in ("hv_rms_current",) + tuple(f"{w.name}.rms_current" for w in aux):
         _check_positive(name, arrays[name], allow_zero=True)
+    for w in aux:  # 0 V with 0 A: the winding is not wound on that design
+        voltage, current = arrays[f"{w.name}.voltage"], arrays[f"{w.name}.rms_current"]
+        _check_positive(f"{w.name}.voltage", voltage, allow_zero=True)
+        if np.any((voltage == 0) & (current != 0)):
+            raise ValueError(f"{w.name}.voltage is 0 V (not wound) where its rms_current is not 0 A")
     if np.any((arrays["hv_centre_tapped"] != 0) & (arrays["hv_centre_tapped"] != 1)):
         raise ValueError("hv_centre_tapped must be True/False (or 1/0)")
     return arrays
@@ -729,9 +740,10 @@ def _solve_kernel(passes, final_passes, v_low, dual, i_core, i_mag, core_loss, n
         solvable = True
         total_passes = passes + final_passes + 1
         for step in range(total_passes):
-            if step == passes:  # integer secondary turns from here on
+            if step == passes:  # integer secondary turns from here on (none if not wound)
                 for s in range(S):
-                    r[s] = max(np.rint(r[s] * n_eq[j]), 1.0) / n_eq[j]
+                    if v_target[s, j] > 0.0:
+                        r[s] = max(np.rint(r[s] * n_eq[j]), 1.0) / n_eq[j]
             # ---- one pass (see the module's method)
             in_phase = i_core[j]
             loaded = i_core[j]
@@ -766,14 +778,21 @@ def _solve_kernel(passes, final_passes, v_low, dual, i_core, i_mag, core_loss, n
                     traverse = False
                 p = max(p, 1.0)
                 per_layer[w] = p
+                if w > 1 and v_target[w - 1, j] == 0.0:  # not wound on this design
+                    layers[w] = 0.0
+                    builds[w] = 0.0
+                    continue
                 layers[w] = max(math.ceil(turns[w] / p - 1e-9), 1.0)
                 builds[w] = (layers[w] * overall[w] + (layers[w] - 1.0) * interlayer[w]) \
                     * bulge_factor
             cursor = 0.0
             for k in range(order.shape[0]):
+                row = order[k]
+                if row > 1 and v_target[row - 1, j] == 0.0:  # not wound: no wrap, no start
+                    start[row] = cursor
+                    continue
                 if k > 0:
                     cursor += interwinding
-                row = order[k]
                 if row < 0:
                     cursor += screen_thickness
                 else:
@@ -864,6 +883,9 @@ def _regulated_ratios_of(r, r_path, v_target, i_rated, v_low, i_core):
     e = max(0.5 * (v_prime + math.sqrt(max(discriminant, 0.0))), 0.5 * abs(v_prime))
     e = max(e, 1e-3 * v_low)
     for s in range(S):
+        if v_target[s] == 0.0:  # not wound on this design
+            r[s] = 0.0
+            continue
         ceiling = 2.0 * v_target[s] / v_low
         r[s] = min((v_target[s] + i_rated[s] * r_path[s + 1]) / e, ceiling)
         if not r[s] < ceiling:
@@ -950,8 +972,10 @@ def _hv_leakage(setup: _Setup, state):
 
 def _cost(setup: _Setup, copper_mass, steel_mass):
     prices = setup.data.prices
-    windings = (2 if setup.dual else 1) + len(setup.names) - 1
-    centre_taps = np.sum(setup.centre_tapped, axis=0)
+    wound = setup.v_target > 0  # the HV and each auxiliary winding wound on each design
+    windings = (2 if setup.dual else 1) + np.sum(wound, axis=0)
+    centre_taps = np.sum(setup.centre_tapped & np.vstack([np.ones((1, setup.n), bool), wound]),
+                         axis=0)
     screen = any(row < 0 for row in setup.order)
     return (
         prices.base_cost
@@ -1024,7 +1048,9 @@ def _assemble(setup: _Setup, state, current_density, target_met, settings) -> Tr
     r_s = hv.resistance_hot + ratio_hv**2 * r_primary
     hv_loaded = hv_open - hv.rms_current * r_s
     positive = hv_loaded > 0.0
-    loaded_error = np.vstack([w.loaded_voltage / w.rated_voltage - 1.0 for w in windings[1:]])
+    loaded_error = np.vstack([np.where(w.rated_voltage > 0, w.loaded_voltage
+                                       / np.where(w.rated_voltage > 0, w.rated_voltage, 1.0) - 1.0,
+                                       0.0) for w in windings[1:]])
     window_width, window_height = ei_window(setup.a)
     copper_mass = sum(w.copper_mass for w in windings)
     secondary_va = sum(w.rated_voltage * w.rms_current * w.conducting_paths for w in windings[1:])
