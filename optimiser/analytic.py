@@ -1,7 +1,8 @@
 """Piecewise-analytic periodic steady state of a full-wave capacitor-input supply (screening).
 
-The search's screening tier: every design of a population, at every corner, in a few dozen numpy
-operations on arrays, with no time stepping. The full simulator (:mod:`optimiser.supply`) re-checks
+The search's screening tier: every design of a population, at every corner, with no time
+stepping: a compiled loop per design (numba; the rows split across the machine's cores, each
+row's result independent of the others). The full simulator (:mod:`optimiser.supply`) re-checks
 whatever the search keeps.
 
 The method is Schade's (1943): between two switchings the circuit is linear. A full-wave rectifier
@@ -15,12 +16,15 @@ capacitor discharges linearly at ``I0/C`` until the next half-cycle. The conduct
 length follow from two equations (the current ends at zero; the capacitor voltage repeats every
 half-cycle), solved by Newton's method with an analytic Jacobian.
 
-The ladder after the reservoir is linear: its DC by Ohm's law from the far end, its ripple as the
-reservoir's harmonics times each node's transfer function.
+The ladder after the reservoir is linear: its DC exactly from the far end, its ripple as the
+reservoir's first harmonics (a DFT of the sampled half-cycle) times each node's transfer
+function, mean squares by Parseval's theorem.
 
 Approximations (why this is a screen and not the simulator): the rectifier's law is linearised
-over the pulse; the ladder's AC current does not load the reservoir; the bleeders are taken at
-their DC current. ``tests/test_analytic.py`` measures the agreement with the simulator.
+over the pulse; the ladder after the reservoir loads it only as the capacitance (and loss) it
+shows at the ripple frequency; the bleeders are taken at their DC current; a current that
+never stops (continuous conduction) is not solved, and says so. ``tests/test_analytic.py``
+measures the agreement with closed forms and the simulator.
 
 References
 ----------
