@@ -268,6 +268,20 @@ class CoDesign:
         if c.resistor_ratings:
             self._resistor_classes = [p for p in self._resistor_classes
                                       if p.name in c.resistor_ratings]
+        self._derated_power = np.array([p.power_at(spec.ambient) for p in self._resistor_classes])
+        # per node, the voltage ratings its series offers: value range, tan delta, surge
+        self.offered_ratings = []
+        for choice in self.capacitor_choice:
+            series = parts.find_part("capacitor", choice.series)
+            offered = choice.ratings()
+            own = [series.rating(r.rated) for r in offered]
+            self.offered_ratings.append({
+                "rated": np.array([r.rated for r in offered]),
+                "min": np.array([r.min_capacitance for r in offered]) * (1 - 1e-9),
+                "max": np.array([r.max_capacitance for r in offered]) * (1 + 1e-9),
+                "tan_delta": np.array([series.tan_delta if r.tan_delta is None else r.tan_delta
+                                       for r in own]),
+                "surge": np.array([r.surge for r in own])})
         self._node_cache = {}
         self.variables = self._variables()
         self.constraints = self._constraint_info()
@@ -483,27 +497,37 @@ class CoDesign:
         return (math.sqrt(2.0) * open_circuit_voltage * (1 + cond.mains_high)
                 * (1 + cond.transformer_tolerance))
 
+    def capacitor_rating(self, node, capacitance, crest, step):
+        """(index into ``offered_ratings[node]``, made) of a node's capacitor, per design: the
+        lowest allowed rating at or above the crest, ``step`` ratings higher, moved up until the
+        value is made at it (else the stepped rating, not made). Arrays or scalars."""
+        table = self.offered_ratings[node]
+        rated = table["rated"]
+        capacitance, crest, step = (np.atleast_1d(np.asarray(x, float)) for x in
+                                    (capacitance, crest, step))
+        first = np.minimum(np.searchsorted(rated, crest, side="left"), len(rated) - 1)
+        i = np.minimum(first + step.astype(int), len(rated) - 1)
+        made_at = ((table["min"][None, :] <= capacitance[:, None])
+                   & (capacitance[:, None] <= table["max"][None, :])
+                   & (np.arange(len(rated))[None, :] >= i[:, None]))
+        made = made_at.any(axis=1)
+        return np.where(made, np.argmax(made_at, axis=1), i), made
+
     def _rating(self, node, capacitance, crest, step):
-        """(rated voltage, made) for a node's capacitor: the lowest allowed rating at or above
-        the crest, ``step`` ratings higher, moved up until the value is made at it."""
-        ratings = self.capacitor_choice[node].ratings()
-        rated = [r.rated for r in ratings]
-        first = next((i for i, v in enumerate(rated) if v >= crest), len(rated) - 1)
-        i = min(first + step, len(rated) - 1)
-        for j in range(i, len(rated)):
-            r = ratings[j]
-            if r.min_capacitance * (1 - 1e-9) <= capacitance <= r.max_capacitance * (1 + 1e-9):
-                return r.rated, True
-        return ratings[i].rated, False
+        """(rated voltage, made) for one design's capacitor (:meth:`capacitor_rating`)."""
+        j, made = self.capacitor_rating(node, capacitance, crest, step)
+        return float(self.offered_ratings[node]["rated"][j[0]]), bool(made[0])
+
+    def resistor_class(self, dissipation):
+        """Index into the resistor classes (by power) of the smallest whose derated power
+        covers the asked margin over a dissipation, else the largest. Arrays or scalars."""
+        need = self.spec.margins.resistor_power_factor * np.asarray(dissipation, float)
+        fits = self._derated_power >= need[..., None]
+        return np.where(fits.any(axis=-1), np.argmax(fits, axis=-1), len(self._derated_power) - 1)
 
     def _resistor_power(self, dissipation):
-        """Power rating of the smallest resistor class whose derated power covers the asked
-        margin over a dissipation, else the largest class. [W]"""
-        need = self.spec.margins.resistor_power_factor * dissipation
-        for p in self._resistor_classes:
-            if p.power_at(self.spec.ambient) >= need:
-                return p.power
-        return self._resistor_classes[-1].power
+        """Power rating of the resistor class :meth:`resistor_class` picks. [W]"""
+        return self._resistor_classes[int(self.resistor_class(dissipation))].power
 
     def _design(self, c: Candidate, block, built) -> Design:
         s = self.spec

@@ -95,17 +95,6 @@ class Screen:
         series = [parts.find_part("capacitor", ch.series) for ch in binding.capacitor_choice]
         self.series = series
         self.tol_plus = np.array([sr.tolerance.plus for sr in series])
-        # per node, the ratings its series offers: voltage, value range, tan delta, surge
-        self.capacitor_ratings = []
-        for choice, sr in zip(binding.capacitor_choice, series):
-            offered = choice.ratings()
-            self.capacitor_ratings.append((
-                np.array([r.rated for r in offered]),
-                np.array([r.min_capacitance for r in offered]) * (1 - 1e-9),
-                np.array([r.max_capacitance for r in offered]) * (1 + 1e-9),
-                np.array([sr.tan_delta if sr.rating(r.rated).tan_delta is None
-                          else sr.rating(r.rated).tan_delta for r in offered]),
-                np.array([sr.rating(r.rated).surge for r in offered])))
         self.frequency = s.mains.frequency
         self.full = np.array([ns.full_power_current for ns in s.nodes])
         self.idle = np.array([ns.idle_current for ns in s.nodes])
@@ -138,7 +127,8 @@ class Screen:
                                 ("diode", ("v_rrm", "i_fsm", "i_f_avg")))
             for attr in attrs}
         options = s.choices.rectifiers
-        self.option_key = [(o.centre_tapped, binding.rectifier_heater(o)) for o in options]
+        self.option_key = [(o.centre_tapped, heater) for o, heater in
+                           zip(options, binding._rectifier_heaters)]
         self.rectifier_cost = self._rectifier_costs()
         # feeds: values, ratings and prices per option
         self.feed = []
@@ -156,10 +146,8 @@ class Screen:
                     cost = bill._resistor_line("", fo.resistance, power, s.ambient).cost
                     rows.append((fo.resistance, 0.0, power, np.nan, cost))
             self.feed.append(np.array(rows, float).reshape(-1, 5))
-        # resistor classes: derated power (to pick one) and price (by rated power)
-        classes = binding._resistor_classes
-        self.class_power = np.array([c.power for c in classes])
-        self.class_derated = np.array([c.power_at(s.ambient) for c in classes])
+        # resistor classes: power and price (by rated power)
+        self.class_power = np.array([c.power for c in binding._resistor_classes])
         self.class_cost = np.array([bill._resistor_line("", 1.0, p, s.ambient).cost
                                     for p in self.class_power])
         self.bleeder_values = np.sort(parts.e_series(BLEEDER_SERIES, range(2, 8)))
@@ -200,13 +188,6 @@ class Screen:
                            if line.group in ("rectifier", "hardware")))
         return np.array(out)
 
-    def _resistor_class(self, dissipation):
-        """Index of the smallest class whose derated power covers the asked margin, else the
-        largest (as :meth:`CoDesign._resistor_power`)."""
-        need = self.spec.margins.resistor_power_factor * np.asarray(dissipation)
-        fits = self.class_derated[None, :] >= need[..., None]
-        return np.where(fits.any(axis=-1), np.argmax(fits, axis=-1), len(self.class_power) - 1)
-
     def _capacitors(self, capacitance, crest, steps):
         """(rated voltage, made, ESR, ripple rating, surge rating, cost) per design and node,
         as :meth:`CoDesign._rating` and :meth:`CoDesign._design` choose them."""
@@ -216,22 +197,15 @@ class Screen:
         out["made"] = np.zeros((count, self.n), bool)
         f2 = 2.0 * self.frequency
         for k, sr in enumerate(self.series):
-            rated, lo, hi, tan_by_rating, surge_by_rating = self.capacitor_ratings[k]
+            table = self.b.offered_ratings[k]
             c = capacitance[:, k]
-            first = np.searchsorted(rated, crest, side="left")
-            first = np.minimum(first, len(rated) - 1)
-            i = np.minimum(first + steps[:, k], len(rated) - 1)
-            made_at = (lo[None, :] <= c[:, None]) & (c[:, None] <= hi[None, :])
-            made_at &= np.arange(len(rated))[None, :] >= i[:, None]
-            made = made_at.any(axis=1)
-            j = np.where(made, np.argmax(made_at, axis=1), i)
-            v = rated[j]
-            tan = tan_by_rating[j]
+            j, made = self.b.capacitor_rating(k, c, crest, steps[:, k])
+            v = table["rated"][j]
             out["rated"][:, k] = v
             out["made"][:, k] = made
-            out["esr"][:, k] = round_significant(tan / (2.0 * np.pi * f2 * c), 3)
+            out["esr"][:, k] = round_significant(table["tan_delta"][j] / (2.0 * np.pi * f2 * c), 3)
             out["ripple"][:, k] = sr.ripple_rating(c, v)
-            out["surge"][:, k] = surge_by_rating[j]
+            out["surge"][:, k] = table["surge"][j]
             out["cost"][:, k] = sr.cost(c, v)
         return out
 
@@ -301,7 +275,7 @@ class Screen:
         r_max = allowed / (c_plus * np.log(crest[:, None] / cond.safe_voltage))
         pick = np.searchsorted(self.bleeder_values, r_max * (1 + 1e-12), side="right") - 1
         bleeder = self.bleeder_values[np.maximum(pick, 0)]
-        bleeder_class = self._resistor_class(crest[:, None] ** 2 / bleeder)
+        bleeder_class = b.resistor_class(crest[:, None] ** 2 / bleeder)
         bleeder_power = self.class_power[bleeder_class]
 
         cost = (tr["cost"] + self.rectifier_cost[choice["rectifier"]] + cap["cost"].sum(axis=1)
