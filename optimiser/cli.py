@@ -35,8 +35,9 @@ def _parser() -> argparse.ArgumentParser:
     op.add_argument("--seed", type=int, help="random seed (default: the spec's)")
     op.add_argument("--generations", type=int, help="generations (default: the spec's)")
     op.add_argument("--population", type=int, help="designs per generation (default: the spec's)")
-    op.add_argument("--workers", type=int, help="worker processes for a search on the full "
-                    "assessment (a spec with sag time windows; default: the spec's)")
+    op.add_argument("--workers", type=int, help="worker processes for searches that need "
+                    "them (the co-design screen runs in one process and uses the machine's "
+                    "cores itself; default: the spec's)")
     op.add_argument("--quiet", action="store_true", help="no progress bar")
     op.add_argument("--report", action="store_true",
                     help="also write report.html, one self-contained page, into the results folder")

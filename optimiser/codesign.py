@@ -664,21 +664,13 @@ class CoDesign:
 
         return Screen(self)
 
-    @property
-    def batch_independent(self) -> bool:
-        """Whether :meth:`evaluate` gives each row the same result in any batch (the screen
-        does; the full simulator's iterations can differ in the last digits)."""
-        return not self.needs_sag_dynamics
+    #: :meth:`evaluate` gives each row the same result in any batch (see :mod:`optimiser.search`).
+    batch_independent = True
 
     def evaluate(self, X):
-        """Objectives and constraints of a population for the search: (F (B, 3), G (B, M)).
-
-        From the screening tier (:mod:`optimiser.screening`), unless the spec sets sag attack or
-        recovery windows: the screen has no sag transient, so then from the full assessment.
-        What the search keeps is re-assessed in full by :func:`optimise`.
-        """
-        if self.needs_sag_dynamics:
-            return self.evaluate_full(X)
+        """Objectives and constraints of a population for the search: (F (B, 3), G (B, M)),
+        from the screening tier (:mod:`optimiser.screening`). What the search keeps is
+        re-assessed in full by :func:`optimise`."""
         return self.screen.evaluate(X)
 
     def evaluate_full(self, X):
@@ -989,8 +981,7 @@ def optimise(spec: Spec, *, population=None, generations=None, seed=None, worker
 
     settings = spec.search
     binding = CoDesign(spec)
-    if binding.batch_independent:
-        binding.screen  # made (and calibrated) before the search, not in its first generation
+    binding.screen  # made (and calibrated) before the search, not in its first generation
     result = search.run(binding, population=population or settings.population,
                         generations=generations or settings.generations,
                         seed=settings.seed if seed is None else seed,

@@ -14,6 +14,8 @@ constraints, column for column, from the same choices, with
 - the switch-on surge and charge-up overshoot from :func:`optimiser.analytic.surge` and
   :func:`optimiser.analytic.choke_overshoot`, the discharge time of each capacitor through its
   own bleeder,
+- where the spec sets sag attack or recovery windows, the sag step on the cycle-averaged
+  circuit (:func:`optimiser.transients.averaged_sag_step`),
 - prices from per-choice tables filled once from :mod:`optimiser.bill`.
 
 Where the screen's figures differ from the full assessment's, they lean to the cautious side
@@ -29,9 +31,11 @@ closely it agrees with the simulator and the full assessment.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
-from . import analytic, bill, ladder, parts, ratings
+from . import analytic, bill, ladder, parts, ratings, transients
 from .codesign import BLEEDER_SERIES
 from .design import Feed
 from .evaluation import DEFAULT_DIODE, LEAKAGE_CONDUCTANCE, MIN_PATH_RESISTANCE, path_elements_of
@@ -356,10 +360,52 @@ class Screen:
         idle_v = f["nominal_idle"]["dc_voltage"][:, k]
         full_v = f["nominal_full"]["dc_voltage"][:, k]
         figures["static_drop"] = _spread((idle_v - full_v) / idle_v, owner, within, count, failed)
-        none = np.full((count, 1), np.nan)
-        figures["attack_time"] = figures["recovery_time"] = none
+        if b.needs_sag_dynamics:
+            sag = self._sag_times(f, stacked, rows)
+            for what in ("attack", "recovery"):
+                figures[f"{what}_time"] = _spread(sag[what][:, k], owner, within, count, failed)
+        else:
+            none = np.full((count, 1), np.nan)
+            figures["attack_time"] = figures["recovery_time"] = none
         regulation, G = b.constraint_values(figures, tr["buildable"], cap["made"], by_design)
         return b.objective_values(cost, regulation, stress), G, by_design
+
+    def _sag_times(self, f, stacked, rows):
+        """Attack and recovery times (R, N) from the cycle-averaged circuit: each row's
+        rectifier as the regulation line through its nominal idle and full-power figures
+        (:func:`optimiser.transients.averaged_sag_step`)."""
+        idle, full = f["nominal_idle"], f["nominal_full"]
+        v_idle, v_full = idle["dc_voltage"][:, 0], full["dc_voltage"][:, 0]
+        i_idle = 2.0 * idle["rectifier_average_current"]
+        i_full = 2.0 * full["rectifier_average_current"]
+        step = i_full - i_idle
+        with np.errstate(divide="ignore", invalid="ignore"):
+            r_out = np.where(np.abs(step) > 1e-9, (v_idle - v_full) / step, 0.0)
+        r_out = np.maximum(np.nan_to_num(r_out), MIN_PATH_RESISTANCE)
+        source = v_idle + r_out * i_idle
+        values = ladder.LadderValues(*(getattr(stacked, name)[:rows] for name in
+                                       ladder.LadderValues.__dataclass_fields__))
+        values = replace(values, path_resistance=r_out,
+                         path_inductance=np.zeros(rows))
+        out = {"attack": np.full((rows, self.n), np.nan),
+               "recovery": np.full((rows, self.n), np.nan)}
+        shapes = values.feed_inductance > 0
+        cond = self.b.conditions
+        for shape in np.unique(shapes, axis=0):
+            members = np.flatnonzero((shapes == shape).all(axis=1))
+            structure = ladder.LadderStructure(n_nodes=self.n, esr=(True,) * self.n,
+                                               inductive_feed=(False,) + tuple(bool(x) for x in
+                                                                               shape[1:]))
+            part = ladder.LadderValues(*(getattr(values, name)[members] for name in
+                                         ladder.LadderValues.__dataclass_fields__))
+            response = transients.averaged_sag_step(
+                structure, part, source[members], self.frequency,
+                np.broadcast_to(self.idle, (len(members), self.n)),
+                np.broadcast_to(self.full, (len(members), self.n)), cond.sag_hold,
+                cond.sag_release)
+            out["attack"][members] = response.attack_time
+            out["recovery"][members] = response.recovery_time
+        return out
 
     def _checks(self, owner, position, f, tr, cap, choice, crest, surge_i, steady_peak, charge,
                 discharge, bleeder, bleeder_power, feed_power, feed_current, feed_l, feed_r,

@@ -18,6 +18,7 @@ __all__ = [
     "crossing_time",
     "SagResponse",
     "sag_step",
+    "averaged_sag_step",
     "surge_peak",
     "charge_up",
     "discharge_times",
@@ -154,6 +155,12 @@ def sag_step(model, elements, peak, frequency, idle_loads, full_loads, idle_wave
                              steps)
     idle_v = node_outputs(model.node_voltage, idle_waves.state[:, :-1], idle_waves.drive[:, :-1],
                           idle_loads).mean(axis=1)
+    return _sag_response(idle_v, v_on, v_off, half)
+
+
+def _sag_response(idle_v, v_on, v_off, half):
+    """The sag's depth and 63 % times from half-cycle means (B, T, N) of the hold and the
+    release, each mean placed at the middle of its half-cycle."""
     t_on = (np.arange(v_on.shape[1]) + 0.5) * half
     t_off = (np.arange(v_off.shape[1]) + 0.5) * half
     depth = idle_v - v_on[:, -1]
@@ -163,9 +170,73 @@ def sag_step(model, elements, peak, frequency, idle_loads, full_loads, idle_wave
     still = np.abs(depth) < NEGLIGIBLE_SAG * np.abs(idle_v)
     attack = np.where(still, np.nan, attack)
     recovery = np.where(still, np.nan, recovery)
-    return SagResponse(time=np.concatenate([t_on, n_hold * half + t_off]),
+    return SagResponse(time=np.concatenate([t_on, v_on.shape[1] * half + t_off]),
                        voltage=np.concatenate([v_on, v_off], axis=1), depth=depth,
                        attack_time=attack, recovery_time=recovery)
+
+
+def averaged_sag_step(structure, values, source, frequency, idle_loads, full_loads, hold,
+                      release):
+    """The sag step of :func:`sag_step` on the cycle-averaged circuit: the rectifier and its
+    winding as a DC source behind their output resistance, feeding the linear ladder.
+
+    A capacitor-input rectifier's mean output falls with its mean load current along a nearly
+    straight line V = E - R_o I (its static regulation); averaged over the mains cycle it is
+    that source behind R_o, so a load step moves B+ with the ladder's own time constants (the
+    reservoir's R_o C first). The screen's stand-in for the simulated step.
+
+    Parameters
+    ----------
+    structure : LadderStructure
+        With a resistive path (the source resistance is the path).
+    values : LadderValues
+        ``path_resistance`` the output resistance R_o, no path inductance. [ohm]
+    source : ndarray (B,)
+        E, the open-circuit end of the regulation line. [V]
+    frequency : float
+        Mains frequency (the means are over its half-cycles). [Hz]
+    idle_loads, full_loads : ndarray (B, N)
+        [A]
+    hold, release : float
+        [s]
+
+    Returns
+    -------
+    SagResponse
+
+    References
+    ----------
+    .. [1] F. Langford-Smith (ed.), Radiotron Designer's Handbook, 4th ed., 1953, ch. 30
+       (regulation of capacitor-input filters; the effective source resistance).
+    """
+    half = 0.5 / frequency
+    model = ladder.state_space(structure, values)
+    count, n = model.A.shape[0], model.A.shape[1]
+    u_idle = np.column_stack([source, idle_loads])
+    u_full = np.column_stack([source, full_loads])
+    x = np.linalg.solve(model.A, -np.einsum("bij,bj->bi", model.B, u_idle)[..., None])[..., 0]
+    disc = supply.discretise(model, half)
+    drive = disc.input_now + disc.input_next  # the inputs hold still over a step
+
+    def outputs(states, u):
+        C, D = model.node_voltage
+        return np.einsum("bkn,btn->btk", C, states) + np.einsum("bkm,bm->bk", D, u)[:, None, :]
+
+    def march(x, u, steps):
+        push = np.einsum("bij,bj->bi", drive, u)
+        out = np.empty((count, steps + 1, n))
+        out[:, 0] = x
+        for k in range(steps):
+            out[:, k + 1] = np.einsum("bij,bj->bi", disc.phi, out[:, k]) + push
+        return out
+
+    idle_v = outputs(x[:, None, :], u_idle)[:, 0]
+    on = march(x, u_full, max(1, int(np.ceil(hold / half))))
+    off = march(on[:, -1], u_idle, max(1, int(np.ceil(release / half))))
+    # the mean over a half-cycle of a smooth response: the mean of its ends
+    v_on = outputs(0.5 * (on[:, 1:] + on[:, :-1]), u_full)
+    v_off = outputs(0.5 * (off[:, 1:] + off[:, :-1]), u_idle)
+    return _sag_response(idle_v, v_on, v_off, half)
 
 
 def surge_peak(model, elements, peak, frequency, loads, steps=SURGE_STEPS):

@@ -86,3 +86,53 @@ def test_the_screen_has_every_check_the_assessment_has(binding):
     # (the full assessment would still catch it at the end, but the search would not steer)
     X = random_population(binding.variables, 30, seed=9)
     assert set(binding.check_names) <= set(binding.screen.check_ratio_names(X))
+
+
+SAG_WINDOWS = """\
+# Invented test case; not a known commercial amplifier.
+name: sag-windows
+mains: {voltage: 230 V, frequency: 50 Hz, tolerance: 10 %}
+ambient: 35 degC
+nodes:
+  - {name: plates, dc_voltage: 300 V, window: 30 V, idle_current: 50 mA,
+     full_power_current: 70 mA, ripple: 30 V}
+  - {name: preamp, dc_voltage: 250 V, window: 40 V, idle_current: 5 mA,
+     full_power_current: 5 mA, hum: 60 dB}
+sag: {node: plates, target: 6 %, tolerance: 3 %, attack: {min: 20 ms, max: 400 ms},
+      recovery: {max: 600 ms}}
+heaters:
+  - {name: heaters, voltage: 6.3 V, current: 1.5 A}
+choices:
+  secondary_voltage: {min: 220 V, max: 300 V, step: 1 V}
+  rectifiers:
+    - {topology: bridge, diode: 1N4007}
+    - {topology: centre-tap, valve: 5AR4}
+  reservoir: {series: generic-105C-radial, min: 22 uF, max: 100 uF}
+  filter: {series: generic-105C-radial, min: 10 uF, max: 47 uF}
+  feeds:
+    preamp:
+      resistance: {min: 1 kohm, max: 22 kohm, series: E6}
+transformer:
+  cores: [EI-a28, EI-a32, EI-a35]
+  steel: NO-M27-like
+  max_flux_density: 1.3 T
+  current_density: {min: 2 A/mm^2, max: 4 A/mm^2, step: 0.5 A/mm^2}
+"""
+
+
+def test_sag_times_on_the_averaged_circuit_agree_with_the_simulated_step(tmp_path):
+    # the simulated step (tests/test_transients_against_ngspice.py checks it against ngspice)
+    # against the screen's cycle-averaged circuit: within 10 % for 90 % of random designs
+    path = tmp_path / "sag.yaml"
+    path.write_text(SAG_WINDOWS, encoding="utf-8")
+    binding = CoDesign(load_spec(path))
+    X = random_population(binding.variables, 40, seed=3)
+    _, G_screen, _ = binding.screen._score(X)
+    _, G_full = binding.evaluate_full(X)
+    names = binding.constraint_names
+    for name, window in (("sag.attack.max", 0.4), ("sag.recovery.max", 0.6)):
+        j = names.index(name)
+        ok = (np.abs(G_full[:, j]) < 1e5) & (np.abs(G_screen[:, j]) < 1e5)
+        assert ok.mean() > 0.8
+        ours, theirs = (window * (1 + G[ok, j]) for G in (G_screen, G_full))
+        assert np.quantile(np.abs(ours / theirs - 1), 0.9) < 0.10, name
