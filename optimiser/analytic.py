@@ -258,107 +258,157 @@ def _half_angle(ratio):
     return phi
 
 
+@numba.njit(cache=True)
+def _cycle_row(b, peak, omega, resistance, inductance, capacitance, esr, constant, conductance, si,
+               vv, sat, n_e, r_s, perveance, topology, node, current, scalars):
+    """One row of :func:`_cycle_kernel` (a function of its own, so that the threads of the
+    loop over rows share nothing but the arrays each row writes)."""
+    pulse_i = np.empty(PULSE_GRID)
+    pulse_v = np.empty(PULSE_GRID)
+    pulse_s = np.empty(PULSE_GRID)
+    grid_i = np.empty(GRID)
+    grid_v = np.empty(GRID)
+    grid_s = np.empty(GRID)
+    E, w, C, esr_b = peak[b], omega[b], capacitance[b], esr[b]
+    half = np.pi / w
+    v_dc_est = E
+    peak_i = 5.0 * max(constant[b] + conductance[b] * v_dc_est, 1e-9)
+    t1 = tc = -1.0
+    converged = False
+    load = 0.0
+    for fit in range(FIT_PASSES):
+        load = max(constant[b] + conductance[b] * v_dc_est, 1e-9)
+        offset, slope = _path_line(peak_i, si[b], vv[b], sat[b], n_e[b], r_s[b],
+                                   perveance[b])
+        # the node sees the ESR's drop of the load current while charging: fold it in
+        R = resistance[b] + slope + esr_b
+        V = offset - esr_b * load
+        L, l1, l2, v_dc, ip, vp = _circuit(E, w, R, inductance[b], C, load, V)
+        if t1 < 0.0:  # Schade's infinite-C limit, widened by the droop
+            phi = _half_angle(R * load / max(E - V, 1.0))
+            v_est = max(E * np.cos(phi) - V, 0.05 * E)
+            s = min(max((v_est - 0.5 * load * half / C + V) / E, 0.05), 0.999)
+            t1 = np.arcsin(s) / w
+            tc = min(max((0.5 * np.pi + phi) / w - t1, 0.02 * half), 0.9 * half)
+        t1, tc, converged = _newton(E, w, R, L, C, load, V, l1, l2, v_dc, ip, vp, half,
+                                    t1, tc)
+        v1 = E * np.sin(w * t1) - V
+        ip1, vp1, _, _ = _particular(w, load, v_dc, ip, vp, t1)
+        y0, y1 = -ip1, v1 - vp1
+        total = 0.0
+        peak_i = load
+        samples = PULSE_GRID if fit == FIT_PASSES - 1 else 9  # the last pass in full
+        _samples(R, L, C, l1, l2, w, load, v_dc, ip, vp, t1, y0, y1, tc / (samples - 1),
+                 samples, pulse_i, pulse_v, pulse_s)
+        for k in range(samples):
+            peak_i = max(peak_i, pulse_i[k])
+            total += pulse_v[k]
+        # the pass's DC (the pulse, then the linear fall), and the resistive load it
+        # implies: on the line from the open-circuit crest through it, V = E - R_o I
+        v_end = pulse_v[samples - 1]
+        v_mean = (tc * total / samples
+                  + (half - tc) * (v_end - 0.5 * load / C * (half - tc))) / half
+        r_out = max(E - v_mean, 0.0) / load
+        i_est = (constant[b] + conductance[b] * E) / (1.0 + conductance[b] * r_out)
+        v_dc_est = max(E - r_out * i_est, 0.0)
+    # the half-cycle on a uniform grid from the start, then the pulse's own samples
+    v1 = E * np.sin(w * t1) - V
+    v_end = pulse_v[PULSE_GRID - 1]
+    square = 0.0
+    single = True
+    piv = -np.inf
+    _samples(R, L, C, l1, l2, w, load, v_dc, ip, vp, t1, y0, y1, half / GRID, GRID,
+             grid_i, grid_v, grid_s)
+    for k in range(GRID + PULSE_GRID):
+        if k < GRID:
+            t = half * k / GRID
+            on = t < tc
+            if on:
+                i, v = max(grid_i[k], 0.0), grid_v[k]
+            else:
+                i, v = 0.0, v_end - load / C * (t - tc)
+            sine = grid_s[k]
+        else:
+            j = k - GRID
+            i, v, on, sine = max(pulse_i[j], 0.0), pulse_v[j], True, pulse_s[j]
+            square += i * i * (0.5 if j == 0 or j == PULSE_GRID - 1 else 1.0)
+            if 0 < j < PULSE_GRID - 1 and pulse_i[j] < -1e-6 * peak_i:
+                single = False
+        src = E * abs(sine)
+        di = (E * sine - V - R * i - v) / L if on else 0.0
+        rect = v + esr_b * (i - load)
+        current[b, k] = i
+        if k < GRID:
+            node[b, k] = rect
+        # the reverse voltage on a blocked element (as the simulator's figures take it)
+        if topology[b] == 0:  # bridge: half of output plus winding terminal
+            reverse = 0.5 * (rect + src - resistance[b] * i - L * di)
+        elif topology[b] == 2:  # hybrid bridge: the conducting element's drop on top
+            reverse = rect
+            if i > 0.0:
+                junction = n_e[b] * rectifier.THERMAL_VOLTAGE * np.log1p(i / sat[b]) \
+                    + r_s[b] * i
+                reverse += max(junction, np.cbrt(i / perveance[b]) ** 2)
+        else:  # centre-tap: output plus the other half-winding
+            reverse = rect + src
+        piv = max(piv, reverse)
+    scalars[b, 0] = t1
+    scalars[b, 1] = tc
+    scalars[b, 2] = 1.0 if (converged and single and tc < 0.9 * half) else 0.0
+    scalars[b, 3] = peak_i
+    scalars[b, 4] = square * tc / (PULSE_GRID - 1) / half
+    scalars[b, 5] = piv
+
+
 @numba.njit(cache=True, parallel=True)
 def _cycle_kernel(peak, omega, resistance, inductance, capacitance, esr, constant, conductance,
                   si, vv, sat, n_e, r_s, perveance, topology, node, current, scalars):
     """Each row's reservoir cycle (see :func:`reservoir_cycle`); fills the output arrays."""
     count = peak.shape[0]
     for b in numba.prange(count):  # rows are independent: threads split them
-        pulse_i = np.empty(PULSE_GRID)
-        pulse_v = np.empty(PULSE_GRID)
-        pulse_s = np.empty(PULSE_GRID)
-        grid_i = np.empty(GRID)
-        grid_v = np.empty(GRID)
-        grid_s = np.empty(GRID)
-        E, w, C, esr_b = peak[b], omega[b], capacitance[b], esr[b]
-        half = np.pi / w
-        v_dc_est = E
-        peak_i = 5.0 * max(constant[b] + conductance[b] * v_dc_est, 1e-9)
-        t1 = tc = -1.0
-        converged = False
-        load = 0.0
-        for fit in range(FIT_PASSES):
-            load = max(constant[b] + conductance[b] * v_dc_est, 1e-9)
-            offset, slope = _path_line(peak_i, si[b], vv[b], sat[b], n_e[b], r_s[b],
-                                       perveance[b])
-            # the node sees the ESR's drop of the load current while charging: fold it in
-            R = resistance[b] + slope + esr_b
-            V = offset - esr_b * load
-            L, l1, l2, v_dc, ip, vp = _circuit(E, w, R, inductance[b], C, load, V)
-            if t1 < 0.0:  # Schade's infinite-C limit, widened by the droop
-                phi = _half_angle(R * load / max(E - V, 1.0))
-                v_est = max(E * np.cos(phi) - V, 0.05 * E)
-                s = min(max((v_est - 0.5 * load * half / C + V) / E, 0.05), 0.999)
-                t1 = np.arcsin(s) / w
-                tc = min(max((0.5 * np.pi + phi) / w - t1, 0.02 * half), 0.9 * half)
-            t1, tc, converged = _newton(E, w, R, L, C, load, V, l1, l2, v_dc, ip, vp, half,
-                                        t1, tc)
-            v1 = E * np.sin(w * t1) - V
-            ip1, vp1, _, _ = _particular(w, load, v_dc, ip, vp, t1)
-            y0, y1 = -ip1, v1 - vp1
-            total = 0.0
-            peak_i = load
-            samples = PULSE_GRID if fit == FIT_PASSES - 1 else 9  # the last pass in full
-            _samples(R, L, C, l1, l2, w, load, v_dc, ip, vp, t1, y0, y1, tc / (samples - 1),
-                     samples, pulse_i, pulse_v, pulse_s)
-            for k in range(samples):
-                peak_i = max(peak_i, pulse_i[k])
-                total += pulse_v[k]
-            # the pass's DC (the pulse, then the linear fall), and the resistive load it
-            # implies: on the line from the open-circuit crest through it, V = E - R_o I
-            v_end = pulse_v[samples - 1]
-            v_mean = (tc * total / samples
-                      + (half - tc) * (v_end - 0.5 * load / C * (half - tc))) / half
-            r_out = max(E - v_mean, 0.0) / load
-            i_est = (constant[b] + conductance[b] * E) / (1.0 + conductance[b] * r_out)
-            v_dc_est = max(E - r_out * i_est, 0.0)
-        # the half-cycle on a uniform grid from the start, then the pulse's own samples
-        v1 = E * np.sin(w * t1) - V
-        v_end = pulse_v[PULSE_GRID - 1]
-        square = 0.0
-        single = True
-        piv = -np.inf
-        _samples(R, L, C, l1, l2, w, load, v_dc, ip, vp, t1, y0, y1, half / GRID, GRID,
-                 grid_i, grid_v, grid_s)
-        for k in range(GRID + PULSE_GRID):
-            if k < GRID:
-                t = half * k / GRID
-                on = t < tc
-                if on:
-                    i, v = max(grid_i[k], 0.0), grid_v[k]
-                else:
-                    i, v = 0.0, v_end - load / C * (t - tc)
-                sine = grid_s[k]
+        _cycle_row(b, peak, omega, resistance, inductance, capacitance, esr, constant, conductance,
+                   si, vv, sat, n_e, r_s, perveance, topology, node, current, scalars)
+
+
+
+@numba.njit(cache=True)
+def _surge_row(b, peak, omega, resistance, inductance, capacitance, esr, si, vv, sat, n_e, r_s,
+               perveance, out):
+    """One row of :func:`_surge_kernel` (a function of its own, so that the threads of the
+    loop over rows share nothing but the arrays each row writes)."""
+    i_a, v_a, s_a = np.empty(PULSE_GRID), np.empty(PULSE_GRID), np.empty(PULSE_GRID)
+    i_b, v_b, s_b = (np.empty(2 * PULSE_GRID), np.empty(2 * PULSE_GRID),
+                     np.empty(2 * PULSE_GRID))
+    E, w, C = peak[b], omega[b], capacitance[b]
+    half = np.pi / w
+    peak_i = E / max(resistance[b] + esr[b], 1e-3)
+    best_i = best_v = 0.0
+    for _ in range(2):
+        offset, slope = _path_line(peak_i, si[b], vv[b], sat[b], n_e[b], r_s[b],
+                                   perveance[b])
+        R = resistance[b] + slope + esr[b]
+        L, l1, l2, v_dc, ip, vp = _circuit(E, w, R, inductance[b], C, 0.0, offset)
+        # the quarter cycle from the crest, then the next half-cycle from where it left off
+        ip0, vp0, _, _ = _particular(w, 0.0, v_dc, ip, vp, 0.5 * half)
+        _samples(R, L, C, l1, l2, w, 0.0, v_dc, ip, vp, 0.5 * half, -ip0, -vp0,
+                 0.5 * half / (PULSE_GRID - 1), PULSE_GRID, i_a, v_a, s_a)
+        ip0, vp0, _, _ = _particular(w, 0.0, v_dc, ip, vp, 0.0)
+        _samples(R, L, C, l1, l2, w, 0.0, v_dc, ip, vp, 0.0, i_a[PULSE_GRID - 1] - ip0,
+                 v_a[PULSE_GRID - 1] - vp0, half / (2 * PULSE_GRID - 1), 2 * PULSE_GRID,
+                 i_b, v_b, s_b)
+        best_i, best_v = 0.0, -np.inf
+        for k in range(3 * PULSE_GRID - 1):
+            if k < PULSE_GRID:
+                i, v = i_a[k], v_a[k]
             else:
-                j = k - GRID
-                i, v, on, sine = max(pulse_i[j], 0.0), pulse_v[j], True, pulse_s[j]
-                square += i * i * (0.5 if j == 0 or j == PULSE_GRID - 1 else 1.0)
-                if 0 < j < PULSE_GRID - 1 and pulse_i[j] < -1e-6 * peak_i:
-                    single = False
-            src = E * abs(sine)
-            di = (E * sine - V - R * i - v) / L if on else 0.0
-            rect = v + esr_b * (i - load)
-            current[b, k] = i
-            if k < GRID:
-                node[b, k] = rect
-            # the reverse voltage on a blocked element (as the simulator's figures take it)
-            if topology[b] == 0:  # bridge: half of output plus winding terminal
-                reverse = 0.5 * (rect + src - resistance[b] * i - L * di)
-            elif topology[b] == 2:  # hybrid bridge: the conducting element's drop on top
-                reverse = rect
-                if i > 0.0:
-                    junction = n_e[b] * rectifier.THERMAL_VOLTAGE * np.log1p(i / sat[b]) \
-                        + r_s[b] * i
-                    reverse += max(junction, np.cbrt(i / perveance[b]) ** 2)
-            else:  # centre-tap: output plus the other half-winding
-                reverse = rect + src
-            piv = max(piv, reverse)
-        scalars[b, 0] = t1
-        scalars[b, 1] = tc
-        scalars[b, 2] = 1.0 if (converged and single and tc < 0.9 * half) else 0.0
-        scalars[b, 3] = peak_i
-        scalars[b, 4] = square * tc / (PULSE_GRID - 1) / half
-        scalars[b, 5] = piv
+                i, v = i_b[k - PULSE_GRID + 1], v_b[k - PULSE_GRID + 1]
+            if k > 0 and i < 0.0:  # the pulse has ended (the first sample is the rest)
+                break
+            best_i = max(best_i, i)
+            best_v = max(best_v, v)
+        peak_i = best_i
+    out[b, 0] = best_i
+    out[b, 1] = best_v
 
 
 @numba.njit(cache=True, parallel=True)
@@ -366,39 +416,14 @@ def _surge_kernel(peak, omega, resistance, inductance, capacitance, esr, si, vv,
                   perveance, out):
     """Each row's switch-on from rest at the crest (see :func:`surge`)."""
     for b in numba.prange(peak.shape[0]):  # rows are independent: threads split them
-        i_a, v_a, s_a = np.empty(PULSE_GRID), np.empty(PULSE_GRID), np.empty(PULSE_GRID)
-        i_b, v_b, s_b = (np.empty(2 * PULSE_GRID), np.empty(2 * PULSE_GRID),
-                         np.empty(2 * PULSE_GRID))
-        E, w, C = peak[b], omega[b], capacitance[b]
-        half = np.pi / w
-        peak_i = E / max(resistance[b] + esr[b], 1e-3)
-        best_i = best_v = 0.0
-        for _ in range(2):
-            offset, slope = _path_line(peak_i, si[b], vv[b], sat[b], n_e[b], r_s[b],
-                                       perveance[b])
-            R = resistance[b] + slope + esr[b]
-            L, l1, l2, v_dc, ip, vp = _circuit(E, w, R, inductance[b], C, 0.0, offset)
-            # the quarter cycle from the crest, then the next half-cycle from where it left off
-            ip0, vp0, _, _ = _particular(w, 0.0, v_dc, ip, vp, 0.5 * half)
-            _samples(R, L, C, l1, l2, w, 0.0, v_dc, ip, vp, 0.5 * half, -ip0, -vp0,
-                     0.5 * half / (PULSE_GRID - 1), PULSE_GRID, i_a, v_a, s_a)
-            ip0, vp0, _, _ = _particular(w, 0.0, v_dc, ip, vp, 0.0)
-            _samples(R, L, C, l1, l2, w, 0.0, v_dc, ip, vp, 0.0, i_a[PULSE_GRID - 1] - ip0,
-                     v_a[PULSE_GRID - 1] - vp0, half / (2 * PULSE_GRID - 1), 2 * PULSE_GRID,
-                     i_b, v_b, s_b)
-            best_i, best_v = 0.0, -np.inf
-            for k in range(3 * PULSE_GRID - 1):
-                if k < PULSE_GRID:
-                    i, v = i_a[k], v_a[k]
-                else:
-                    i, v = i_b[k - PULSE_GRID + 1], v_b[k - PULSE_GRID + 1]
-                if k > 0 and i < 0.0:  # the pulse has ended (the first sample is the rest)
-                    break
-                best_i = max(best_i, i)
-                best_v = max(best_v, v)
-            peak_i = best_i
-        out[b, 0] = best_i
-        out[b, 1] = best_v
+        _surge_row(b, peak, omega, resistance, inductance, capacitance, esr, si, vv, sat, n_e, r_s,
+                   perveance, out)
+
+
+
+def _column(x, count):
+    """A contiguous float column of ``count`` (a scalar broadcast), as the compiled loops take."""
+    return np.ascontiguousarray(np.broadcast_to(np.asarray(x, float), (count,)))
 
 
 def reservoir_cycle(peak, frequency, resistance, inductance, capacitance, esr, load,
@@ -433,7 +458,7 @@ def reservoir_cycle(peak, frequency, resistance, inductance, capacitance, esr, l
     .. [1] O. H. Schade, "Analysis of rectifier operation", Proc. IRE 31, 1943.
     """
     count = peak.shape[0]
-    f64 = lambda x: np.ascontiguousarray(np.broadcast_to(np.asarray(x, float), (count,)))  # noqa: E731
+    f64 = lambda x: _column(x, count)  # noqa: E731
     omega = 2.0 * np.pi * f64(frequency)
     conductance = np.zeros(count) if conductance is None else conductance
     codes = np.zeros(count, np.int64) if topology is None else np.select(
@@ -493,6 +518,79 @@ def downstream_capacitance(frequency, capacitance, esr, feed_resistance, feed_in
     return extra, np.minimum(damping, 1.0)
 
 
+@numba.njit(cache=True)
+def _ladder_row(b, reservoir, path_current, drawn, frequency, capacitance, esr, feed_r, feed_l,
+                conductance, dc, cos_t, sin_t, ripple, node_peak, cap_ms, feed_ms, cross):
+    """One row of :func:`_ladder_kernel` (a function of its own, so that the threads of the
+    loop over rows share nothing but the arrays each row writes)."""
+    n = capacitance.shape[1]
+    M = reservoir.shape[1]
+    H = cos_t.shape[1]
+    X = np.empty(H, np.complex128)
+    A = np.empty(H, np.complex128)
+    phasor = np.empty((H, n), np.complex128)
+    shunt_z = np.empty(n, np.complex128)
+    series = np.empty(n, np.complex128)
+    total = np.empty(n, np.complex128)
+    mean = 0.0
+    for m in range(M):
+        mean += reservoir[b, m] / M
+    for h in range(H):
+        xr = xi = ar = ai = 0.0
+        for m in range(M):
+            x = reservoir[b, m] - mean
+            a = path_current[b, m] - drawn[b]
+            xr += x * cos_t[m, h]
+            xi -= x * sin_t[m, h]
+            ar += a * cos_t[m, h]
+            ai -= a * sin_t[m, h]
+        X[h] = complex(xr, xi)
+        A[h] = complex(ar, ai)
+    for k in range(n):
+        cap_ms[b, k] = 0.0
+        feed_ms[b, k] = 0.0
+    cross[b] = 0.0
+    scale = 2.0 / (M * M)  # Parseval for a real signal of harmonics 1..H (H < M / 2)
+    for h in range(H):
+        w = 2.0 * np.pi * 2.0 * frequency[b] * (h + 1)
+        for k in range(n):
+            shunt_z[k] = esr[b, k] + 1.0 / complex(0.0, w * capacitance[b, k])
+            series[k] = complex(feed_r[b, k], w * feed_l[b, k])
+        total[n - 1] = 1.0 / shunt_z[n - 1] + conductance[b, n - 1]
+        for k in range(n - 2, -1, -1):
+            total[k] = (1.0 / shunt_z[k] + conductance[b, k]
+                        + 1.0 / (series[k + 1] + 1.0 / total[k + 1]))
+        phasor[h, 0] = X[h]
+        for k in range(1, n):
+            phasor[h, k] = phasor[h, k - 1] / (1.0 + series[k] * total[k])
+        for k in range(1, n):
+            c = phasor[h, k] / shunt_z[k]
+            f = (phasor[h, k - 1] - phasor[h, k]) / series[k]
+            cap_ms[b, k] += scale * (c.real ** 2 + c.imag ** 2)
+            feed_ms[b, k] += scale * (f.real ** 2 + f.imag ** 2)
+            if k == 1:
+                cross[b] += scale * (A[h].real * f.real + A[h].imag * f.imag)
+    # node waveforms: the reservoir as it is, the others rebuilt from their harmonics
+    high = low = reservoir[b, 0]
+    for m in range(M):
+        high = max(high, reservoir[b, m])
+        low = min(low, reservoir[b, m])
+    ripple[b, 0] = high - low
+    node_peak[b, 0] = max(high, 0.0)
+    for k in range(1, n):
+        high = -np.inf
+        low = np.inf
+        for m in range(M):
+            v = dc[b, k]
+            for h in range(H):
+                p = phasor[h, k]
+                v += (2.0 / M) * (p.real * cos_t[m, h] - p.imag * sin_t[m, h])
+            high = max(high, v)
+            low = min(low, v)
+        ripple[b, k] = high - low
+        node_peak[b, k] = max(high, 0.0)
+
+
 @numba.njit(cache=True, parallel=True)
 def _ladder_kernel(reservoir, path_current, drawn, frequency, capacitance, esr, feed_r, feed_l,
                    conductance, dc, cos_t, sin_t, ripple, node_peak, cap_ms, feed_ms, cross):
@@ -505,69 +603,9 @@ def _ladder_kernel(reservoir, path_current, drawn, frequency, capacitance, esr, 
     M = reservoir.shape[1]
     H = cos_t.shape[1]
     for b in numba.prange(count):  # rows are independent: threads split them
-        X = np.empty(H, np.complex128)
-        A = np.empty(H, np.complex128)
-        phasor = np.empty((H, n), np.complex128)
-        shunt_z = np.empty(n, np.complex128)
-        series = np.empty(n, np.complex128)
-        total = np.empty(n, np.complex128)
-        mean = 0.0
-        for m in range(M):
-            mean += reservoir[b, m] / M
-        for h in range(H):
-            xr = xi = ar = ai = 0.0
-            for m in range(M):
-                x = reservoir[b, m] - mean
-                a = path_current[b, m] - drawn[b]
-                xr += x * cos_t[m, h]
-                xi -= x * sin_t[m, h]
-                ar += a * cos_t[m, h]
-                ai -= a * sin_t[m, h]
-            X[h] = complex(xr, xi)
-            A[h] = complex(ar, ai)
-        for k in range(n):
-            cap_ms[b, k] = 0.0
-            feed_ms[b, k] = 0.0
-        cross[b] = 0.0
-        scale = 2.0 / (M * M)  # Parseval for a real signal of harmonics 1..H (H < M / 2)
-        for h in range(H):
-            w = 2.0 * np.pi * 2.0 * frequency[b] * (h + 1)
-            for k in range(n):
-                shunt_z[k] = esr[b, k] + 1.0 / complex(0.0, w * capacitance[b, k])
-                series[k] = complex(feed_r[b, k], w * feed_l[b, k])
-            total[n - 1] = 1.0 / shunt_z[n - 1] + conductance[b, n - 1]
-            for k in range(n - 2, -1, -1):
-                total[k] = (1.0 / shunt_z[k] + conductance[b, k]
-                            + 1.0 / (series[k + 1] + 1.0 / total[k + 1]))
-            phasor[h, 0] = X[h]
-            for k in range(1, n):
-                phasor[h, k] = phasor[h, k - 1] / (1.0 + series[k] * total[k])
-            for k in range(1, n):
-                c = phasor[h, k] / shunt_z[k]
-                f = (phasor[h, k - 1] - phasor[h, k]) / series[k]
-                cap_ms[b, k] += scale * (c.real ** 2 + c.imag ** 2)
-                feed_ms[b, k] += scale * (f.real ** 2 + f.imag ** 2)
-                if k == 1:
-                    cross[b] += scale * (A[h].real * f.real + A[h].imag * f.imag)
-        # node waveforms: the reservoir as it is, the others rebuilt from their harmonics
-        high = low = reservoir[b, 0]
-        for m in range(M):
-            high = max(high, reservoir[b, m])
-            low = min(low, reservoir[b, m])
-        ripple[b, 0] = high - low
-        node_peak[b, 0] = max(high, 0.0)
-        for k in range(1, n):
-            high = -np.inf
-            low = np.inf
-            for m in range(M):
-                v = dc[b, k]
-                for h in range(H):
-                    p = phasor[h, k]
-                    v += (2.0 / M) * (p.real * cos_t[m, h] - p.imag * sin_t[m, h])
-                high = max(high, v)
-                low = min(low, v)
-            ripple[b, k] = high - low
-            node_peak[b, k] = max(high, 0.0)
+        _ladder_row(b, reservoir, path_current, drawn, frequency, capacitance, esr, feed_r, feed_l,
+                    conductance, dc, cos_t, sin_t, ripple, node_peak, cap_ms, feed_ms, cross)
+
 
 
 def steady_state(values, elements: rectifier.PathElements, peak, frequency,
@@ -672,7 +710,7 @@ def surge(peak, frequency, resistance, inductance, capacitance, esr,
         Peak path current and the highest reservoir voltage over those. [A], [V]
     """
     count = peak.shape[0]
-    f64 = lambda x: np.ascontiguousarray(np.broadcast_to(np.asarray(x, float), (count,)))  # noqa: E731
+    f64 = lambda x: _column(x, count)  # noqa: E731
     out = np.empty((count, 2))
     el = elements
     _surge_kernel(f64(peak), 2.0 * np.pi * f64(frequency), f64(resistance), f64(inductance),

@@ -98,6 +98,14 @@ def test_the_compiled_passes_use_the_physics_modules_formulas():
             pop.winding_temperature - 20.0), rtol=1e-12)
     np.testing.assert_allclose(pop.temperature_rise, physics.mclyman_temperature_rise(
         pop.total_loss, pop.surface_area), rtol=1e-12)
+    # the former as in test_design_window_and_first_winding_geometry_by_hand
+    offset = DATA.bobbin.tongue_clearance + DATA.bobbin.wall_thickness
+    a, stack = 0.032, np.array([0.03, 0.04, 0.05])
+    for w in pop.windings:
+        np.testing.assert_allclose(w.mean_turn_length, physics.mean_turn_length(
+            a + 2 * offset, stack + 2 * offset, w.distance_from_former, w.build), rtol=1e-12)
+    np.testing.assert_allclose(pop.surface_area, physics.ei_outline_surface_area(
+        a, stack, offset + pop.total_build), rtol=1e-12)
 
 
 def test_a_winding_of_no_volts_is_not_wound():
