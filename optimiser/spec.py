@@ -35,7 +35,7 @@ Sections::
       insulation_class: B
     conditions: {transformer_tolerance: 5 %}   # the design file's conditions (see design.py)
     costs: {parts: {5U4G: 26}, transformer: {labour_per_winding: 10}}
-    search: {population: 100, generations: 100, seed: 1}
+    search: {population: 200, generations: 60, seed: 1}
 
 Everything is held as SI floats after validation (fractions as fractions: 8 % is 0.08).
 """
@@ -551,8 +551,8 @@ class Resolution(Strict):
 class SearchSettings(Strict):
     """The search's budget and reproducibility."""
 
-    population: int = Field(default=120, ge=8, le=5000)
-    generations: int = Field(default=100, ge=1, le=10000)
+    population: int = Field(default=200, ge=8, le=5000)
+    generations: int = Field(default=60, ge=1, le=10000)
     seed: int = Field(default=1, ge=0)
     workers: int = Field(default=1, ge=1, le=64)
     resolution: Resolution = Resolution()
