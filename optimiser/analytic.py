@@ -599,9 +599,7 @@ def _ladder_kernel(reservoir, path_current, drawn, frequency, capacitance, esr, 
     Harmonics 1..HARMONICS of the half-cycle waveform (a DFT of GRID samples) pass the ladder as
     phasors; mean squares by Parseval's theorem, node waveforms rebuilt from the same harmonics.
     """
-    count, n = capacitance.shape
-    M = reservoir.shape[1]
-    H = cos_t.shape[1]
+    count = capacitance.shape[0]
     for b in numba.prange(count):  # rows are independent: threads split them
         _ladder_row(b, reservoir, path_current, drawn, frequency, capacitance, esr, feed_r, feed_l,
                     conductance, dc, cos_t, sin_t, ripple, node_peak, cap_ms, feed_ms, cross)

@@ -14,6 +14,7 @@ from optimiser.evaluation import Batch, _groups
 from optimiser.ladder import state_space
 from optimiser.search import random_population
 from optimiser.spec import load_spec
+from test_search import SMALL
 
 
 @pytest.fixture(scope="module", params=["specs/demo-valve.yaml", "specs/demo-silicon.yaml"])
@@ -88,36 +89,10 @@ def test_the_screen_has_every_check_the_assessment_has(binding):
     assert set(binding.check_names) <= set(binding.screen.check_ratio_names(X))
 
 
-SAG_WINDOWS = """\
-# Invented test case; not a known commercial amplifier.
-name: sag-windows
-mains: {voltage: 230 V, frequency: 50 Hz, tolerance: 10 %}
-ambient: 35 degC
-nodes:
-  - {name: plates, dc_voltage: 300 V, window: 30 V, idle_current: 50 mA,
-     full_power_current: 70 mA, ripple: 30 V}
-  - {name: preamp, dc_voltage: 250 V, window: 40 V, idle_current: 5 mA,
-     full_power_current: 5 mA, hum: 60 dB}
-sag: {node: plates, target: 6 %, tolerance: 3 %, attack: {min: 20 ms, max: 400 ms},
-      recovery: {max: 600 ms}}
-heaters:
-  - {name: heaters, voltage: 6.3 V, current: 1.5 A}
-choices:
-  secondary_voltage: {min: 220 V, max: 300 V, step: 1 V}
-  rectifiers:
-    - {topology: bridge, diode: 1N4007}
-    - {topology: centre-tap, valve: 5AR4}
-  reservoir: {series: generic-105C-radial, min: 22 uF, max: 100 uF}
-  filter: {series: generic-105C-radial, min: 10 uF, max: 47 uF}
-  feeds:
-    preamp:
-      resistance: {min: 1 kohm, max: 22 kohm, series: E6}
-transformer:
-  cores: [EI-a28, EI-a32, EI-a35]
-  steel: NO-M27-like
-  max_flux_density: 1.3 T
-  current_density: {min: 2 A/mm^2, max: 4 A/mm^2, step: 0.5 A/mm^2}
-"""
+# the search tests' invented spec with attack and recovery windows added
+SAG_WINDOWS = SMALL.replace("heaters:", "sag: {node: plates, target: 6 %, tolerance: 3 %, "
+                            "attack: {min: 20 ms, max: 400 ms}, recovery: {max: 600 ms}}\n"
+                            "heaters:", 1)
 
 
 def test_sag_times_on_the_averaged_circuit_agree_with_the_simulated_step(tmp_path):

@@ -869,12 +869,7 @@ def _solve_kernel(passes, final_passes, v_low, dual, i_core, i_mag, core_loss, n
     in the order of :data:`_N_FIELDS`; ``out_ok`` (3, n): wire available, traverse fits,
     solvable.
     """
-    S, n = v_target.shape
-    W = S + 1
-    parallel = 2.0 if dual else 1.0
-    D = diameters.shape[0]
-    rho = COPPER_RESISTIVITY_20C
-    alpha = COPPER_TEMPERATURE_COEFFICIENT_20C
+    n = v_target.shape[1]
     for j in numba.prange(n):  # designs are independent: threads split them
         _solve_row(j, passes, final_passes, v_low, dual, i_core, i_mag, core_loss, n_eq, n_primary,
                    ratio, v_target, i_rated, paths, current_density, diameters, enamel_nominal,
