@@ -16,8 +16,8 @@ from pathlib import Path
 import numpy as np
 import yaml
 
-from optimiser.assessment import assess_many
-from optimiser.design import load_design
+from optimiser.assessment.full import assess_many
+from optimiser.inputs.design import load_design
 
 DEMO = Path(__file__).resolve().parents[1] / "specs" / "demo-design-valve.yaml"
 

@@ -11,7 +11,7 @@ pricing the population) against pymoo's own bookkeeping (mating, survival, dupli
 elimination, repair). The goal (issue 5): the whole job under 60 s on a 2-core machine, and the
 physics no more than pymoo's bookkeeping per generation.
 
-During the search the physics is the screening tier (:mod:`optimiser.screening`); the whole
+During the search the physics is the screening tier (:mod:`optimiser.codesign.screening`); the whole
 job's figure also includes making the screen (its calibration against the full assessment) and
 the final full assessment of what the search kept, and, on the first run after an install or a
 change, numba compiling its loops. The physics per generation is split into the transformer
@@ -36,9 +36,11 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
-from optimiser import analytic, screening, search  # noqa: E402
-from optimiser.codesign import optimise  # noqa: E402
-from optimiser.spec import load_spec  # noqa: E402
+from optimiser.physics import analytic  # noqa: E402
+from optimiser.codesign import screening  # noqa: E402
+from optimiser.codesign import nsga as search  # noqa: E402
+from optimiser.codesign.problem import optimise  # noqa: E402
+from optimiser.inputs.spec import load_spec  # noqa: E402
 
 
 class FreeProblem:

@@ -36,7 +36,7 @@ sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(ROOT / "tests"))
 
 import spice  # noqa: E402  (tests/spice.py, the ngspice reference harness)
-from optimiser.units import format_quantity, parse_quantity  # noqa: E402
+from optimiser.formats.units import format_quantity, parse_quantity  # noqa: E402
 
 SIZES = (1, 10, 100, 1000, 10000)
 LADDER_LENGTHS = (1, 2, 3, 4, 5)

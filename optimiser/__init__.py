@@ -1,13 +1,13 @@
 """Railwright: co-design of a valve amplifier's power transformer and high-voltage supply."""
 
-from .evaluation import evaluate, evaluate_many
+from optimiser.assessment.steady_state import evaluate, evaluate_many
 
 
 def optimise(spec, **settings):
     """Run the co-design search on a spec (path, dict or Spec); see
     :func:`optimiser.codesign.optimise`."""
-    from .codesign import optimise as _optimise
-    from .spec import load_spec
+    from optimiser.codesign.problem import optimise as _optimise
+    from optimiser.inputs.spec import load_spec
 
     return _optimise(load_spec(spec), **settings)
 

@@ -11,16 +11,14 @@ import json
 import math
 import sys
 
-from .design import DesignError
-from .units import format_quantity
+from optimiser.inputs.design import DesignError
+from optimiser.formats.units import format_quantity
+from optimiser.formats.writing import CAUTION, write_text_atomic
 
 EXIT_BAD_INPUT = 2
 #: ``optimise`` found no design that meets the spec
 EXIT_NOTHING_FOUND = 1
 
-CAUTION = ("CAUTION: valve amplifier supplies carry lethal voltages and their capacitors hold "
-           "charge after switch-off. Fit bleeders, fuse and earth the chassis, and follow local "
-           "electrical codes and licensed practice.")
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -64,7 +62,7 @@ def _parser() -> argparse.ArgumentParser:
 def _report(args) -> int:
     from pathlib import Path
 
-    from .report import ResultsError, design_report, results_report, write_report
+    from optimiser.outputs.report import ResultsError, design_report, results_report, write_report
 
     source = Path(args.path)
     try:
@@ -87,8 +85,8 @@ def _report(args) -> int:
 
 
 def _transformer(args) -> int:
-    from .design import load_design
-    from .transformer import order_sheet, order_sheet_markdown
+    from optimiser.inputs.design import load_design
+    from optimiser.outputs.ordersheet import order_sheet, order_sheet_markdown
 
     design = load_design(args.design)
     if design.transformer_design is None:
@@ -102,30 +100,8 @@ def _transformer(args) -> int:
     return 0
 
 
-def write_text_atomic(path, text):
-    """Write a whole file or nothing: into a temporary file beside it, then rename."""
-    import os
-    import tempfile
-    from pathlib import Path
-
-    target = Path(path)
-    fd, tmp = tempfile.mkstemp(dir=target.parent if str(target.parent) else ".",
-                               prefix=f".{target.name}.")
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as fh:
-            fh.write(text)
-        # mkstemp makes the file private (0600); give it the mode any new file would get
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, target)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-
-
 def _evaluate(args) -> int:
-    from .assessment import assess
+    from optimiser.assessment.full import assess
 
     result = assess(args.design, detail=False)
     if args.json:
@@ -135,7 +111,7 @@ def _evaluate(args) -> int:
     else:
         print(render_assessment(result))
     if args.report:
-        from .report import design_report, write_report
+        from optimiser.outputs.report import design_report, write_report
 
         path = write_report(design_report(args.design), args.report)
         # stderr, so that --json output stays one JSON object
@@ -234,7 +210,7 @@ def render_assessment(a) -> str:
 
 
 def render_supply(result, caution=True) -> str:
-    """A plain-text view of a :class:`~optimiser.evaluation.SupplyResult`."""
+    """A plain-text view of a :class:`~optimiser.assessment.steady_state.SupplyResult`."""
     f = format_quantity
     lines = ["B+ nodes at steady state (nominal mains)", ""]
     header = f"  {'node':<14}{'DC':>10}{'ripple p-p':>13}{'ripple rms':>13}{'cap. I rms':>13}"
@@ -271,9 +247,9 @@ def _optimise(args) -> int:
     import time
     from pathlib import Path
 
-    from .codesign import optimise
-    from .outputs import render_impossible, write_results
-    from .spec import load_spec, spec_name
+    from optimiser.codesign.problem import optimise
+    from optimiser.outputs.results import render_impossible, write_results
+    from optimiser.inputs.spec import load_spec, spec_name
 
     for flag in ("seed", "generations", "population", "workers"):
         value = getattr(args, flag)
@@ -295,7 +271,7 @@ def _optimise(args) -> int:
     write_results(result, out, spec_text, elapsed=elapsed)
     report = None
     if args.report:
-        from .report import write_results_report
+        from optimiser.outputs.report import write_results_report
 
         report = write_results_report(out)
     knee = result.scored.frame.iloc[result.knee]

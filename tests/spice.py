@@ -40,7 +40,7 @@ if __package__ in (None, ""):
     # Run as a script from a checkout: make the optimiser package importable.
     sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from optimiser.units import parse_quantity  # noqa: E402
+from optimiser.formats.units import parse_quantity  # noqa: E402
 
 __all__ = [
     "DesignError",
@@ -179,11 +179,11 @@ def _part(rectifier: dict, kind: str) -> dict:
     default part, so both simulate the same circuit."""
     value = rectifier.get(kind)
     if value is None and kind == "diode":
-        from optimiser.evaluation import DEFAULT_DIODE
+        from optimiser.assessment.steady_state import DEFAULT_DIODE
 
         value = DEFAULT_DIODE
     if isinstance(value, str):
-        from optimiser import parts
+        from optimiser.parts import catalogue as parts
 
         try:
             part = parts.find_part(kind, value)

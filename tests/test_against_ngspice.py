@@ -15,7 +15,7 @@ from pathlib import Path
 import pytest
 import yaml
 
-from optimiser.design import load_design
+from optimiser.inputs.design import load_design
 
 import optimiser
 import spice

@@ -1,6 +1,6 @@
 """The screening tier's piecewise-analytic steady state against closed-form limits and the simulator.
 
-The simulator (:mod:`optimiser.supply`) is itself cross-checked against ngspice
+The simulator (:mod:`optimiser.physics.supply`) is itself cross-checked against ngspice
 (tests/test_against_ngspice.py); here the screen is measured against it on random designs of
 both demo specs (invented amplifiers). Every design here is an invented test case.
 """
@@ -8,11 +8,12 @@ both demo specs (invented amplifiers). Every design here is an invented test cas
 import numpy as np
 import pytest
 
-from optimiser import analytic, rectifier
-from optimiser.codesign import CoDesign
-from optimiser.evaluation import Batch, _groups, figures, solve_batch
-from optimiser.search import random_population
-from optimiser.spec import load_spec
+from optimiser.physics import analytic
+from optimiser.physics import rectifier
+from optimiser.codesign.problem import CoDesign
+from optimiser.assessment.steady_state import Batch, _groups, figures, solve_batch
+from optimiser.codesign.nsga import random_population
+from optimiser.inputs.spec import load_spec
 
 VM = 300 * np.sqrt(2)
 W = 2 * np.pi * 50

@@ -6,8 +6,11 @@ import copy
 import numpy as np
 import pytest
 
-from optimiser import parts, ratings, rectifier, transients
-from optimiser.assessment import assess, assess_many
+from optimiser.parts import catalogue as parts
+from optimiser.physics import ratings
+from optimiser.physics import rectifier
+from optimiser.physics import transients
+from optimiser.assessment.full import assess, assess_many
 
 SILICON = {
     "mains": {"voltage": "230 V", "frequency": "50 Hz"},
@@ -147,9 +150,9 @@ def test_switchable_pair_evaluates_both_positions():
     # Invented test case: one winding, a silicon and a valve branch with their own reservoirs.
     from pathlib import Path
 
-    from optimiser.assessment import PairAssessment
-    from optimiser.design import DesignError, load_design
-    from optimiser.evaluation import evaluate
+    from optimiser.assessment.full import PairAssessment
+    from optimiser.inputs.design import DesignError, load_design
+    from optimiser.assessment.steady_state import evaluate
 
     path = Path(__file__).parents[1] / "specs" / "demo-design-switchable.yaml"
     pair = assess(path, detail=False)
@@ -167,7 +170,7 @@ def test_switchable_pair_evaluates_both_positions():
 
 
 def test_switchable_needs_two_positions():
-    from optimiser.design import DesignError, load_design
+    from optimiser.inputs.design import DesignError, load_design
 
     d = copy.deepcopy(SILICON)
     d["rectifier"] = {"topology": "switchable",

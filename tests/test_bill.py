@@ -5,9 +5,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from optimiser import parts
-from optimiser.bill import cost_breakdown, parts_list, price_of
-from optimiser.design import load_design
+from optimiser.parts import catalogue as parts
+from optimiser.assessment.bill import cost_breakdown, parts_list, price_of
+from optimiser.inputs.design import load_design
 
 SPECS = Path(__file__).parents[1] / "specs"
 

@@ -5,7 +5,7 @@ import textwrap
 import pytest
 
 from optimiser.cli import main
-from optimiser.design import DesignError, load_design
+from optimiser.inputs.design import DesignError, load_design
 
 GOOD = """\
 mains: {voltage: 230 V, frequency: 50 Hz}

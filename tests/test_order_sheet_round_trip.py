@@ -8,9 +8,9 @@ import yaml
 
 from optimiser import evaluate
 from optimiser.cli import main
-from optimiser.design import load_design
-from optimiser.transformer import order_sheet
-from optimiser.units import parse_quantity
+from optimiser.inputs.design import load_design
+from optimiser.outputs.ordersheet import order_sheet
+from optimiser.formats.units import parse_quantity
 
 DEMO = Path(__file__).parents[1] / "specs" / "demo-design-build.yaml"
 
@@ -55,9 +55,9 @@ def test_cli_order_sheet_needs_a_build(capsys):
 
 def test_a_design_brings_its_own_core(tmp_path):
     # Invented user core: the bundled cores file copied, with one core of the user's own added
-    from optimiser.transformer import use_user_folder
+    from optimiser.physics.transformer import use_user_folder
 
-    bundled = (Path(__file__).parents[1] / "optimiser" / "data" / "cores.yaml").read_text()
+    bundled = (Path(__file__).parents[1] / "optimiser" / "parts" / "data" / "cores.yaml").read_text()
     mine = tmp_path / "my-data"
     mine.mkdir()
     entry = re.search(r"(?ms)^  - name: EI-a35\n.*?(?=^  - name:)", bundled).group(0)

@@ -8,8 +8,8 @@ import textwrap
 import numpy as np
 import pytest
 
-from optimiser import parts
-from optimiser.parts import (
+from optimiser.parts import catalogue as parts
+from optimiser.parts.catalogue import (
     CapacitorSeries,
     CatalogueError,
     Diode,
@@ -423,8 +423,8 @@ def test_bundled_files_are_cached():
 
 def test_a_design_file_brings_its_own_parts(tmp_path):
     # Invented user part: a rectifier valve of the user's own, named in the design's parts_files
-    from optimiser import parts as parts_module
-    from optimiser.assessment import assess
+    from optimiser.parts import catalogue as parts_module
+    from optimiser.assessment.full import assess
 
     (tmp_path / "my-valves.yaml").write_text(
         "kind: valve\n"

@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from optimiser import rectifier
+from optimiser.physics import rectifier
 
 
 def test_child_langmuir_round_trip():

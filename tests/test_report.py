@@ -16,11 +16,11 @@ import pandas as pd
 import pytest
 import yaml
 
-from optimiser import report
-from optimiser.assessment import assess_many
-from optimiser.bill import cost_breakdown
+from optimiser.outputs import report
+from optimiser.assessment.full import assess_many
+from optimiser.assessment.bill import cost_breakdown
 from optimiser.cli import main
-from optimiser.design import load_design
+from optimiser.inputs.design import load_design
 
 SPECS = Path(__file__).parents[1] / "specs"
 SUBSECTIONS = ("waveforms", "sag", "switch-on", "nodes", "checks", "figures", "life",

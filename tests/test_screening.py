@@ -8,12 +8,13 @@ budget (common practice, no source).
 import numpy as np
 import pytest
 
-from optimiser import analytic, transients
-from optimiser.codesign import CoDesign, optimise
-from optimiser.evaluation import Batch, _groups
-from optimiser.ladder import state_space
-from optimiser.search import random_population
-from optimiser.spec import load_spec
+from optimiser.physics import analytic
+from optimiser.physics import transients
+from optimiser.codesign.problem import CoDesign, optimise
+from optimiser.assessment.steady_state import Batch, _groups
+from optimiser.physics.ladder import state_space
+from optimiser.codesign.nsga import random_population
+from optimiser.inputs.spec import load_spec
 from test_search import SMALL
 
 

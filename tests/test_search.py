@@ -13,11 +13,12 @@ import numpy as np
 import pytest
 from pymoo.indicators.hv import HV
 
-from optimiser import evaluate, search
+from optimiser import evaluate
+from optimiser.codesign import nsga as search
 from optimiser.cli import main
-from optimiser.codesign import CoDesign, optimise
-from optimiser.design import DesignError, load_design
-from optimiser.spec import load_spec
+from optimiser.codesign.problem import CoDesign, optimise
+from optimiser.inputs.design import DesignError, load_design
+from optimiser.inputs.spec import load_spec
 
 SMALL = """\
 # Invented test case; not a known commercial amplifier.
@@ -332,7 +333,7 @@ def test_bad_spec_exits_2_and_writes_nothing(tmp_path, capsys):
 
 
 def test_a_failure_while_writing_leaves_nothing_half_done(tmp_path, monkeypatch, small):
-    from optimiser import outputs
+    from optimiser.outputs import results as outputs
 
     def broken(*args, **kwargs):
         raise RuntimeError("disk full (simulated)")
@@ -368,7 +369,7 @@ def test_worker_processes_give_the_same_front(small):
 
 
 def test_switchable_pair_is_scored_and_round_trips_through_its_design_file(tmp_path):
-    from optimiser.outputs import design_yaml
+    from optimiser.outputs.results import design_yaml
 
     text = SMALL.replace(
         "    - {topology: centre-tap, valve: 5AR4}\n",

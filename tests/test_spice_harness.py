@@ -113,7 +113,7 @@ def test_netlist_of_choke_input_puts_the_choke_before_the_reservoir():
 
 
 def test_part_names_bleeders_and_idle_full_loads_are_read_like_the_solver_reads_them():
-    from optimiser import parts
+    from optimiser.parts import catalogue as parts
 
     case = design("bridge", "300 V", "50 ohm", [
         {"name": "plates", "capacitance": "100 uF", "bleeder": "100 kohm",

@@ -8,8 +8,9 @@ import copy
 import numpy as np
 import pytest
 
-from optimiser import evaluation, rectifier
-from optimiser.evaluation import evaluate, evaluate_many
+from optimiser.assessment import steady_state as evaluation
+from optimiser.physics import rectifier
+from optimiser.assessment.steady_state import evaluate, evaluate_many
 
 # a near-ideal silicon diode: N*Vt ~ 0.26 mV, so its drop is a few millivolts
 IDEAL = {"saturation_current": "1 pA", "emission_coefficient": 0.01, "series_resistance": "0 ohm"}

@@ -11,7 +11,9 @@ import numpy as np
 import pytest
 from pydantic import ValidationError
 
-from optimiser import transformer as tr
+from optimiser.inputs import build
+from optimiser.outputs import ordersheet
+from optimiser.physics import transformer as tr
 
 DATA = tr.load_transformer_data()
 M19 = DATA.steel_index("NO-M19-like")
@@ -86,7 +88,7 @@ def test_design_windings_are_hot_by_their_computed_temperature():
 def test_the_compiled_passes_use_the_physics_modules_formulas():
     # the fixed point is compiled one design at a time; its figures must be the physics
     # module's own formulas (checked against their sources above) applied to its geometry
-    from optimiser.transformer import physics
+    from optimiser.physics.transformer import physics
 
     pop = typical(hv_voltage=np.array([250.0, 300.0, 380.0]),
                   hv_rms_current=np.array([0.12, 0.2, 0.3]), stack=np.array([0.03, 0.04, 0.05]))
@@ -420,8 +422,8 @@ BLOCK = {
 
 
 def test_build_block_takes_the_population_path():
-    block = tr.TransformerBuild.model_validate(BLOCK)
-    design = tr.build_from_block(block, 60.0)
+    block = build.TransformerBuild.model_validate(BLOCK)
+    design = build.build_from_block(block, 60.0)
     assert isinstance(design, tr.TransformerDesign)
     assert design.build is block
     assert design.winding_order == ("primary", "screen", "hv", "bias", "rectifier", "signal")
@@ -436,8 +438,8 @@ def test_build_block_takes_the_population_path():
 
 
 def test_order_sheet_has_what_a_winder_needs():
-    design = tr.build_from_block(tr.TransformerBuild.model_validate(BLOCK), 60.0)
-    sheet = tr.order_sheet(design)
+    design = build.build_from_block(build.TransformerBuild.model_validate(BLOCK), 60.0)
+    sheet = ordersheet.order_sheet(design)
     assert sheet["primary"]["voltages"] == "120 V / 240 V"
     assert sheet["primary"]["frequency"] == "60 Hz"
     names = [s["name"] for s in sheet["secondaries"]]
@@ -460,13 +462,13 @@ def test_order_sheet_has_what_a_winder_needs():
     assert not re.search(r"\d\s*k?V", sheet["hipot_test"])
     cautions = " ".join(sheet["cautions"])
     assert "qualified" in cautions and "standards" in cautions and "earthing" in cautions and "fusing" in cautions
-    text = tr.order_sheet_markdown(sheet)
+    text = ordersheet.order_sheet_markdown(sheet)
     assert text.startswith("# ") and "## Cautions" in text and "320-0-320 V" in text
 
 
 def test_order_sheet_of_a_population_member():
     design = typical(primary_voltages=[100.0, 120.0, 220.0, 240.0]).design(0)
-    sheet = tr.order_sheet(design)
+    sheet = ordersheet.order_sheet(design)
     assert sheet["mounting"] == "to be agreed between builder and winder"
     assert sheet["primary"]["arrangement"].startswith("one winding with taps at 0 V, 100 V")
     assert sheet["primary"]["maximum_dc_resistance_at_20C"].count("ohm") == 4
@@ -475,15 +477,15 @@ def test_order_sheet_of_a_population_member():
 
 def test_build_block_rejects_malformed_input():
     with pytest.raises(ValidationError, match="unknown core"):
-        tr.TransformerBuild.model_validate({**BLOCK, "core": "EI-a99"})
+        build.TransformerBuild.model_validate({**BLOCK, "core": "EI-a99"})
     with pytest.raises(ValidationError, match="dual primary needs two voltages"):
-        tr.TransformerBuild.model_validate({**BLOCK, "primaries": ["120 V", "230 V"]})
+        build.TransformerBuild.model_validate({**BLOCK, "primaries": ["120 V", "230 V"]})
     with pytest.raises(ValidationError, match="winding_order"):
-        tr.TransformerBuild.model_validate({**BLOCK, "winding_order": ["primary", "hv"]})
+        build.TransformerBuild.model_validate({**BLOCK, "winding_order": ["primary", "hv"]})
     with pytest.raises(ValidationError, match="Extra inputs"):
-        tr.TransformerBuild.model_validate({**BLOCK, "colour": "red"})
+        build.TransformerBuild.model_validate({**BLOCK, "colour": "red"})
     with pytest.raises(ValidationError, match="needs a unit"):
-        tr.TransformerBuild.model_validate({**BLOCK, "stack": 45})
+        build.TransformerBuild.model_validate({**BLOCK, "stack": 45})
 
 
 def test_population_rejects_malformed_input():

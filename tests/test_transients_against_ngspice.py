@@ -9,10 +9,10 @@ import numpy as np
 import pytest
 
 import spice
-from optimiser import transients
-from optimiser.design import load_design
-from optimiser.evaluation import Batch, figures, solve_batch
-from optimiser.ladder import state_space
+from optimiser.physics import transients
+from optimiser.inputs.design import load_design
+from optimiser.assessment.steady_state import Batch, figures, solve_batch
+from optimiser.physics.ladder import state_space
 
 pytestmark = pytest.mark.ngspice
 

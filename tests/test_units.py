@@ -2,7 +2,7 @@
 
 import pytest
 
-from optimiser.units import UnitError, format_quantity, parse_quantity
+from optimiser.formats.units import UnitError, format_quantity, parse_quantity
 
 
 @pytest.mark.parametrize("text, dimension, expected", [

@@ -1,6 +1,6 @@
 """The parts catalogue: valve and silicon rectifiers, capacitor series, chokes, resistor ratings.
 
-Parts data lives in YAML files under ``optimiser/data/`` (one file per kind), every entry with a
+Parts data lives in YAML files under ``optimiser/parts/data/`` (one file per kind), every entry with a
 ``provenance``. This module reads them into frozen pydantic models holding SI floats, lets user
 files add or override entries, and looks parts up by name or alias.
 
@@ -32,8 +32,8 @@ import numpy as np
 import yaml
 from pydantic import Field, ValidationError, field_validator, model_validator
 
-from .yamlfile import DesignError, read_yaml
-from .schema import (
+from optimiser.formats.yamlfile import DesignError, read_yaml
+from optimiser.formats.schema import (
     Capacitance,
     Current,
     Fraction,

@@ -12,8 +12,8 @@ from typing import Annotated, Literal, Optional, Union
 
 from pydantic import Field, ValidationError, field_validator, model_validator
 
-from .yamlfile import DesignError, read_yaml, validate
-from .schema import (
+from optimiser.formats.yamlfile import DesignError, read_yaml, validate
+from optimiser.formats.schema import (
     Capacitance,
     Current,
     Fraction,
@@ -66,7 +66,7 @@ class EquivalentTransformer(Strict):
 
     Either give the equivalent directly (secondary_voltage, secondary_resistance, optionally
     leakage_inductance), or give a physical ``build`` (see
-    :class:`optimiser.transformer.TransformerBuild`): the equivalent is then computed from it.
+    :class:`optimiser.physics.transformer.TransformerBuild`): the equivalent is then computed from it.
     """
 
     secondary_voltage: Optional[Annotated[Voltage, Positive]] = None
@@ -230,7 +230,7 @@ class Design(Strict):
     rectifier: Rectifier
     nodes: list[Node] = Field(min_length=1)
     conditions: Conditions = Conditions()
-    #: the user's own parts files (same layout as optimiser/data/*.yaml), relative to this file
+    #: the user's own parts files (same layout as optimiser/parts/data/*.yaml), relative to this file
     parts_files: list[str] = []
     #: the user's own folder of transformer data (cores, steels, wire, prices), relative to it
     transformer_data: Optional[str] = None
@@ -283,7 +283,7 @@ class Design(Strict):
 
     def _with_equivalent(self):
         """A copy whose equivalent source comes from the physical build."""
-        from .transformer import build_from_block
+        from optimiser.inputs.build import build_from_block
 
         t = self.transformer
         built = build_from_block(t.build, self.mains.frequency * 1.0)
@@ -360,7 +360,7 @@ def register_user_data(data: dict, folder: Path, source: str) -> None:
     and register them for every later lookup."""
     directory = data.get("transformer_data")
     if directory is not None:
-        from .transformer import use_user_folder
+        from optimiser.physics.transformer import use_user_folder
 
         if not isinstance(directory, str):
             raise DesignError([f"{source}: transformer_data: a folder path"])
@@ -375,7 +375,7 @@ def register_user_data(data: dict, folder: Path, source: str) -> None:
         return
     if not isinstance(files, list) or not all(isinstance(f, str) for f in files):
         raise DesignError([f"{source}: parts_files: a list of file paths"])
-    from . import parts
+    from optimiser.parts import catalogue as parts
 
     resolved = [str((folder / f).resolve()) for f in files]
     try:
@@ -385,7 +385,7 @@ def register_user_data(data: dict, folder: Path, source: str) -> None:
     data["parts_files"] = resolved
 
 
-from .transformer import TransformerBuild  # noqa: E402  (the build block refers back to schema)
+from optimiser.inputs.build import TransformerBuild  # noqa: E402  (the build block refers back to schema
 
 EquivalentTransformer.model_rebuild()
 Design.model_rebuild()

@@ -11,8 +11,8 @@ shows its two positions side by side. A search run adds the Pareto front in pair
 with the recommended design marked, and a table of every Pareto design.
 
 Physics is not done here: every figure comes from :func:`optimiser.assessment.assess`,
-:func:`optimiser.evaluation.cycle_waveforms`, :mod:`optimiser.bill` and
-:mod:`optimiser.transformer`.
+:func:`optimiser.assessment.steady_state.cycle_waveforms`, :mod:`optimiser.assessment.bill` and
+:mod:`optimiser.physics.transformer`.
 """
 
 from __future__ import annotations
@@ -27,7 +27,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .units import format_quantity
+from optimiser.formats.units import format_quantity
 
 __all__ = ["design_report", "results_report", "write_report", "write_results_report",
            "read_front", "Front", "ResultsError", "MARGIN_BAND", "FULL_SECTIONS"]
@@ -275,7 +275,7 @@ def _check(assessment, name):
 
 @_styled
 def _waveform_plot(design, a, key, width) -> str:
-    from .evaluation import cycle_waveforms
+    from optimiser.assessment.steady_state import cycle_waveforms
 
     w = cycle_waveforms(a.steady)
     t = 1e3 * w["time"]
@@ -624,7 +624,7 @@ def _life_table(positions) -> str:
 
 
 def _parts_table(design) -> str:
-    from .bill import parts_list
+    from optimiser.assessment.bill import parts_list
 
     lines = parts_list(design)
     rows = []
@@ -716,7 +716,7 @@ def _markdown_html(text: str, top: int = 4, table_cls: str = "sheet") -> str:
 
 
 def _transformer_html(design) -> str:
-    from .transformer import order_sheet, order_sheet_markdown
+    from optimiser.outputs.ordersheet import order_sheet, order_sheet_markdown
 
     built = design.transformer_design
     if built is not None:
@@ -781,7 +781,7 @@ def _cautions_html(positions, design) -> str:
 
 def _glance(positions, design, extra=None) -> str:
     """The short answer: does it pass, what it costs, where B+ lands."""
-    from .bill import cost_breakdown
+    from optimiser.assessment.bill import cost_breakdown
 
     total = cost_breakdown(design)["total"]
     failed = [f"{name + '/' if name else ''}{c.name}" for name, _, a in positions
@@ -1042,8 +1042,8 @@ _JS = """
 
 
 def _page(title: str, lede: str, toc, body: str) -> str:
-    from . import __version__
-    from .cli import CAUTION
+    from optimiser import __version__
+    from optimiser.formats.writing import CAUTION
 
     toc_html = ('<nav class="toc" aria-label="contents"><strong>Contents</strong><ul>'
                 + "".join(f'<li><a href="#{_e(a)}">{_e(t)}</a></li>' for a, t in toc)
@@ -1074,8 +1074,8 @@ def design_report(design, *, title=None) -> str:
     str
         The whole page.
     """
-    from .assessment import assess
-    from .design import load_design
+    from optimiser.assessment.full import assess
+    from optimiser.inputs.design import load_design
 
     path = Path(design) if isinstance(design, (str, Path)) else None
     d = load_design(design)
@@ -1141,7 +1141,7 @@ def read_front(result_dir) -> Front:
     whose values name files in ``designs/`` (as ``<id>``, ``<id>.yaml`` or a path), else any
     column that does. The recommended design is a true value in a ``recommended``/``knee``
     column, else the design ``summary.md`` names on a line with "recommend", else the knee
-    (``optimiser.search.knee``) where that function exists.
+    (``optimiser.codesign.nsga.knee``) where that function exists.
 
     Raises
     ------
@@ -1204,7 +1204,7 @@ def _recommended(frame, ids, root):
     if said:
         return said
     try:
-        from .search import knee
+        from optimiser.codesign.nsga import knee
     except ImportError:
         return None, None
     F = frame[list(OBJECTIVES)].to_numpy(dtype=float)
@@ -1383,8 +1383,8 @@ def results_report(result_dir, *, link_base=None) -> str:
         design and the extremes of each objective when there are more than
         :data:`FULL_SECTIONS`).
     """
-    from .assessment import assess
-    from .design import DesignError, load_design
+    from optimiser.assessment.full import assess
+    from optimiser.inputs.design import DesignError, load_design
 
     root = Path(result_dir)
     front = read_front(root)
@@ -1466,7 +1466,7 @@ def write_report(html_text: str, path) -> Path:
     Path
         Where it was written.
     """
-    from .cli import write_text_atomic
+    from optimiser.formats.writing import write_text_atomic
 
     target = Path(path)
     write_text_atomic(target, html_text)

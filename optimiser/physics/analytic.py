@@ -2,7 +2,7 @@
 
 The search's screening tier: every design of a population, at every corner, with no time
 stepping: a compiled loop per design (numba; the rows split across the machine's cores, each
-row's result independent of the others). The full simulator (:mod:`optimiser.supply`) re-checks
+row's result independent of the others). The full simulator (:mod:`optimiser.physics.supply`) re-checks
 whatever the search keeps.
 
 The method is Schade's (1943): between two switchings the circuit is linear. A full-wave rectifier
@@ -40,7 +40,7 @@ from dataclasses import dataclass
 import numba
 import numpy as np
 
-from . import rectifier
+from optimiser.physics import rectifier
 
 __all__ = ["CycleFigures", "reservoir_cycle", "steady_state",
            "surge", "choke_overshoot", "downstream_capacitance"]
@@ -609,7 +609,7 @@ def _ladder_kernel(reservoir, path_current, drawn, frequency, capacitance, esr, 
 def steady_state(values, elements: rectifier.PathElements, peak, frequency,
                  topology) -> dict:
     """Every steady-state figure of a batch of supplies, under the names
-    :func:`optimiser.evaluation.figures` gives them (those a screen needs).
+    :func:`optimiser.assessment.steady_state.figures` gives them (those a screen needs).
 
     Parameters
     ----------

@@ -1,6 +1,6 @@
 """One design -> every steady-state figure; many designs -> one vectorised pass.
 
-This is the seam between the file world (validated :class:`~optimiser.design.Design` models) and
+This is the seam between the file world (validated :class:`~optimiser.inputs.design.Design` models) and
 the physics modules, which work on arrays. Designs of the same ladder shape are solved together.
 """
 
@@ -11,9 +11,11 @@ from dataclasses import asdict, dataclass, field
 import numpy as np
 import pandas as pd
 
-from . import ladder, rectifier, supply
-from .transients import node_outputs
-from .design import Design, load_design
+from optimiser.physics import ladder
+from optimiser.physics import rectifier
+from optimiser.physics import supply
+from optimiser.physics.transients import node_outputs
+from optimiser.inputs.design import Design, load_design
 
 __all__ = ["NodeFigures", "SupplyResult", "Batch", "evaluate", "evaluate_many", "solve_batch",
            "cycle_waveforms"]
@@ -235,21 +237,21 @@ def path_elements_of(topology, diode, valve) -> dict:
 
 
 def _diode_model(diode):
-    from .design import DiodeModel
+    from optimiser.inputs.design import DiodeModel
 
     if isinstance(diode, DiodeModel):
         return diode
-    from . import parts
+    from optimiser.parts import catalogue as parts
 
     return parts.find_part("diode", diode or DEFAULT_DIODE)
 
 
 def _valve_perveance(valve) -> float:
-    from .design import ValveModel
+    from optimiser.inputs.design import ValveModel
 
     if isinstance(valve, ValveModel):
         return valve.perveance
-    from . import parts
+    from optimiser.parts import catalogue as parts
 
     return parts.find_part("valve", valve).perveance
 
@@ -436,7 +438,7 @@ def cycle_waveforms(result: SupplyResult) -> dict:
 
 def _fixed(design: Design) -> Design:
     if design.switchable:
-        from .design import DesignError
+        from optimiser.inputs.design import DesignError
 
         raise DesignError(["rectifier: a switchable pair has two steady states; evaluate each "
                            "position (Design.positions()) or use optimiser.assessment.assess"])

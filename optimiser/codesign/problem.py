@@ -1,12 +1,12 @@
 """The binding of a spec to the search: decision variables, concrete designs, objectives, limits.
 
 A population matrix ``X`` (one row per candidate; integer columns hold indices) is decoded into
-:class:`Candidate` choices, turned into concrete :class:`~optimiser.design.Design` objects (the
+:class:`Candidate` choices, turned into concrete :class:`~optimiser.inputs.design.Design` objects (the
 physical transformer of the whole population designed in one vectorised call of
-:func:`optimiser.transformer.design_population`), assessed by
+:func:`optimiser.physics.transformer.design_population`), assessed by
 :func:`optimiser.assessment.assess_many` (mains and tolerance corners, sag step, switch-on, every
-rating) and priced by :mod:`optimiser.bill` (:meth:`CoDesign.score`). During the search the same
-objectives and constraints come from a screening tier, :mod:`optimiser.screening`, many times
+rating) and priced by :mod:`optimiser.assessment.bill` (:meth:`CoDesign.score`). During the search the same
+objectives and constraints come from a screening tier, :mod:`optimiser.codesign.screening`, many times
 faster; :func:`optimise` assesses what the search kept in full, and only that is reported. The
 result is scored:
 
@@ -38,9 +38,11 @@ from functools import cached_property
 import numpy as np
 import pandas as pd
 
-from . import bill, parts, transients
-from .assessment import assess_many
-from .design import (
+from optimiser.assessment import bill
+from optimiser.parts import catalogue as parts
+from optimiser.physics import transients
+from optimiser.assessment.full import assess_many
+from optimiser.inputs.design import (
     Design,
     EquivalentTransformer,
     Feed,
@@ -50,18 +52,11 @@ from .design import (
     Position,
     Rectifier,
 )
-from .search import Variable
-from .spec import RECTIFIER_HEATER, Spec
-from .transformer import (
-    AuxiliaryWinding,
-    BiasWindingBlock,
-    HeaterWindingBlock,
-    HvWindingBlock,
-    TransformerBuild,
-    design_population,
-    load_transformer_data,
-)
-from .units import format_quantity, round_significant
+from optimiser.codesign.nsga import Variable
+from optimiser.inputs.spec import RECTIFIER_HEATER, Spec
+from optimiser.inputs.build import BiasWindingBlock, HeaterWindingBlock, HvWindingBlock, TransformerBuild
+from optimiser.physics.transformer import AuxiliaryWinding, design_population, load_transformer_data
+from optimiser.formats.units import format_quantity, round_significant
 
 __all__ = [
     "OBJECTIVES",
@@ -166,7 +161,7 @@ class Scored:
     frame : pandas.DataFrame
         One row per design: what was chosen, the objectives and costs, the transformer's
         figures, the assessment's figures (nominal full power under the names
-        :func:`~optimiser.evaluation.evaluate_many` uses where it has them) and ``check: <name>``
+        :func:`~optimiser.assessment.steady_state.evaluate_many` uses where it has them) and ``check: <name>``
         ratio columns.
     F : ndarray (B, 3)
     G : ndarray (B, M)
@@ -659,12 +654,12 @@ class CoDesign:
 
     @cached_property
     def screen(self):
-        """The search's screening tier (:class:`optimiser.screening.Screen`)."""
-        from .screening import Screen
+        """The search's screening tier (:class:`optimiser.codesign.screening.Screen`)."""
+        from optimiser.codesign.screening import Screen
 
         return Screen(self)
 
-    #: :meth:`evaluate` gives each row the same result in any batch (see :mod:`optimiser.search`).
+    #: :meth:`evaluate` gives each row the same result in any batch (see :mod:`optimiser.codesign.nsga`).
     batch_independent = True
 
     def evaluate(self, X):
@@ -797,7 +792,7 @@ class CoDesign:
         return out
 
     def parts_list(self, design):
-        """The design's parts list (:func:`optimiser.bill.parts_list`) with the spec's price
+        """The design's parts list (:func:`optimiser.assessment.bill.parts_list`) with the spec's price
         overrides applied to its rectifier valves and diodes."""
         lines = bill.parts_list(design)
         overrides = {k.casefold(): v for k, v in self.spec.costs.parts.items()}
@@ -947,7 +942,7 @@ class Optimisation:
 def reported_front(F, feasible, resolution):
     """Rows of the feasible, non-dominated designs, telling apart only objective differences
     larger than the spec's resolution (of designs that tie, the cheapest is kept); by cost."""
-    from . import search
+    from optimiser.codesign import nsga as search
 
     steps = np.array([resolution.cost, resolution.regulation, resolution.rectifier_stress])
     coarse = np.where(steps > 0, np.round(F / np.where(steps > 0, steps, 1.0)) * steps, F)
@@ -977,7 +972,7 @@ def optimise(spec: Spec, *, population=None, generations=None, seed=None, worker
     Optimisation
         With an empty front (and ``unmet`` saying why) when no design meets every constraint.
     """
-    from . import search
+    from optimiser.codesign import nsga as search
 
     settings = spec.search
     binding = CoDesign(spec)

@@ -10,7 +10,7 @@ from typing import Annotated
 
 from pydantic import BaseModel, BeforeValidator, ConfigDict, Field
 
-from .units import parse_quantity
+from optimiser.formats.units import parse_quantity
 
 __all__ = [
     "Strict",
@@ -54,7 +54,7 @@ def unique_names(items, what="node"):
 
 
 def unit_field(dimension: str, **kwargs):
-    """An annotated float read from a unit string of ``dimension`` (see :mod:`optimiser.units`)."""
+    """An annotated float read from a unit string of ``dimension`` (see :mod:`optimiser.formats.units`)."""
     return Annotated[float, BeforeValidator(lambda v: parse_quantity(v, dimension)), Field(**kwargs)]
 
 

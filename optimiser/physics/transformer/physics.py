@@ -1,6 +1,6 @@
 """Transformer physics: copper, wire, EI core geometry, magnetics, heat (pure functions on arrays).
 
-Part of :mod:`optimiser.transformer`; see the package docstring for the method.
+Part of :mod:`optimiser.physics.transformer`; see the package docstring for the method.
 """
 
 from __future__ import annotations

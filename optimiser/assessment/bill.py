@@ -1,6 +1,6 @@
 """The parts list of a design, with estimated costs from the catalogue's price data.
 
-Costs are in currency-neutral cost units (see the price files under ``optimiser/data``); they
+Costs are in currency-neutral cost units (see the price files under ``optimiser/parts/data``); they
 rank designs and are estimates, not quotations. A part whose price the data cannot give is
 listed with ``cost`` NaN and a note saying why.
 """
@@ -14,12 +14,13 @@ from pathlib import Path
 import numpy as np
 import yaml
 
-from . import parts
-from .units import format_quantity
+from optimiser.parts import catalogue as parts
+from optimiser.parts.catalogue import DATA_DIR
+from optimiser.formats.units import format_quantity
 
 __all__ = ["PartLine", "parts_list", "cost_breakdown", "price_of"]
 
-PRICE_FILE = Path(__file__).parent / "data" / "part_prices.yaml"
+PRICE_FILE = DATA_DIR / "part_prices.yaml"
 
 
 @dataclass(frozen=True)
@@ -86,7 +87,7 @@ def _rectifier_lines(design, label=""):
             lines.append(_line("rectifier", where, count, "silicon diode (given by parameters)",
                                "", np.nan, "no part named: price unknown"))
         else:
-            from .evaluation import DEFAULT_DIODE
+            from optimiser.assessment.steady_state import DEFAULT_DIODE
 
             part = parts.find_part("diode", name or DEFAULT_DIODE)
             cost, source = price_of("diodes", part.name)

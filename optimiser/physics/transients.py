@@ -1,6 +1,6 @@
 """Transients of the HV supply: the sag step, switch-on, and discharge after switch-off.
 
-Built on the exact-exponential stepping of :mod:`optimiser.supply`; vectorised over a batch.
+Built on the exact-exponential stepping of :mod:`optimiser.physics.supply`; vectorised over a batch.
 Times in seconds, voltages in volts, currents in amperes.
 """
 
@@ -10,7 +10,8 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from . import ladder, supply
+from optimiser.physics import ladder
+from optimiser.physics import supply
 
 __all__ = [
     "node_outputs",

@@ -1,25 +1,25 @@
 """The order sheet for a transformer winder: what to make, with nothing left to guess.
 
-Part of :mod:`optimiser.transformer`; see the package docstring for the method.
+Part of :mod:`optimiser.physics.transformer`; see the package docstring for the method.
 """
 
 from __future__ import annotations
 
 
-from ..units import format_quantity
-from .physics import (
+from optimiser.formats.units import format_quantity
+from optimiser.physics.transformer.physics import (
     mean_turn_length,
 )
-from .data import (
+from optimiser.physics.transformer.data import (
     TransformerData,
     load_transformer_data,
 )
-from .population import (
+from optimiser.physics.transformer.population import (
     TransformerDesign,
     TransformerPopulation,
     WindingDesign,
 )
-from .block import (
+from optimiser.inputs.build import (
     build_from_block,
 )
 

@@ -1,6 +1,6 @@
 """The ``transformer: build:`` block of a design file, and the one design it describes.
 
-Part of :mod:`optimiser.transformer`; see the package docstring for the method.
+Part of :mod:`optimiser.physics.transformer`; see the package docstring for the method.
 """
 
 from __future__ import annotations
@@ -9,8 +9,8 @@ from typing import Literal
 
 from pydantic import Field, ValidationInfo, field_validator, model_validator
 
-from ..schema import Strict
-from .data import (
+from optimiser.formats.schema import Strict
+from optimiser.physics.transformer.data import (
     TransformerData,
     _NonNegativeCurrent,
     _PositiveCurrentDensity,
@@ -20,7 +20,7 @@ from .data import (
     _Temperature,
     load_transformer_data,
 )
-from .population import (
+from optimiser.physics.transformer.population import (
     AuxiliaryWinding,
     TransformerDesign,
     _RESERVED_NAMES,

@@ -22,8 +22,8 @@ from pathlib import Path
 import numpy as np
 import yaml
 
-from .design import Conditions
-from .units import format_quantity
+from optimiser.inputs.design import Conditions
+from optimiser.formats.units import format_quantity
 
 __all__ = ["design_document", "design_yaml", "write_results", "render_summary",
            "render_impossible", "front_ids", "CAUTIONS"]
@@ -283,7 +283,7 @@ def _knee_reason(opt) -> str:
 
 def render_summary(opt, spec_text: str, ids=None, elapsed=None) -> str:
     """The Markdown summary of a search with a non-empty front."""
-    from .transformer import order_sheet, order_sheet_markdown
+    from optimiser.outputs.ordersheet import order_sheet, order_sheet_markdown
 
     ids = ids or front_ids(opt)
     s = opt.spec
@@ -480,7 +480,7 @@ def write_results(opt, out_dir, spec_text: str, elapsed=None) -> Path:
     Path
         The folder written.
     """
-    from .assessment import assess_many
+    from optimiser.assessment.full import assess_many
 
     if not opt.found:
         raise ValueError("no design met every constraint: nothing to write")

@@ -9,14 +9,14 @@ constraints, column for column, from the same choices, with
   each distinct transformer designed once per run: the result of a design does not depend on
   the batch it is in),
 - the steady state at the four corners the constraints read (nominal idle and full power, high
-  mains at full power and with the valves cold) from :func:`optimiser.analytic.steady_state`,
+  mains at full power and with the valves cold) from :func:`optimiser.physics.analytic.steady_state`,
   all corners in one call,
-- the switch-on surge and charge-up overshoot from :func:`optimiser.analytic.surge` and
-  :func:`optimiser.analytic.choke_overshoot`, the discharge time of each capacitor through its
+- the switch-on surge and charge-up overshoot from :func:`optimiser.physics.analytic.surge` and
+  :func:`optimiser.physics.analytic.choke_overshoot`, the discharge time of each capacitor through its
   own bleeder,
 - where the spec sets sag attack or recovery windows, the sag step on the cycle-averaged
-  circuit (:func:`optimiser.transients.averaged_sag_step`),
-- prices from per-choice tables filled once from :mod:`optimiser.bill`.
+  circuit (:func:`optimiser.physics.transients.averaged_sag_step`),
+- prices from per-choice tables filled once from :mod:`optimiser.assessment.bill`.
 
 Where the screen's figures differ from the full assessment's, they lean to the cautious side
 (more ripple, a larger surge): left alone, that would steer the search away from designs that
@@ -35,12 +35,17 @@ from dataclasses import replace
 
 import numpy as np
 
-from . import analytic, bill, ladder, parts, ratings, transients
-from .codesign import BLEEDER_SERIES
-from .design import Feed
-from .evaluation import DEFAULT_DIODE, LEAKAGE_CONDUCTANCE, MIN_PATH_RESISTANCE, path_elements_of
-from .rectifier import PathElements
-from .units import round_significant
+from optimiser.physics import analytic
+from optimiser.assessment import bill
+from optimiser.physics import ladder
+from optimiser.parts import catalogue as parts
+from optimiser.physics import ratings
+from optimiser.physics import transients
+from optimiser.codesign.problem import BLEEDER_SERIES
+from optimiser.inputs.design import Feed
+from optimiser.assessment.steady_state import DEFAULT_DIODE, LEAKAGE_CONDUCTANCE, MIN_PATH_RESISTANCE, path_elements_of
+from optimiser.physics.rectifier import PathElements
+from optimiser.formats.units import round_significant
 
 __all__ = ["Screen"]
 
@@ -163,7 +168,7 @@ class Screen:
         :data:`CALIBRATION_QUANTILE` of the screen's excess over the full assessment among the
         designs within one allowance of the limit (0 where the screen is not conservative or
         too few designs are near the limit)."""
-        from .search import random_population
+        from optimiser.codesign.nsga import random_population
 
         X = random_population(self.b.variables, CALIBRATION_SAMPLE, seed=0)
         G_screen = self._score(X)[1]
@@ -373,7 +378,7 @@ class Screen:
     def _sag_times(self, f, stacked, rows):
         """Attack and recovery times (R, N) from the cycle-averaged circuit: each row's
         rectifier as the regulation line through its nominal idle and full-power figures
-        (:func:`optimiser.transients.averaged_sag_step`)."""
+        (:func:`optimiser.physics.transients.averaged_sag_step`)."""
         idle, full = f["nominal_idle"], f["nominal_full"]
         v_idle, v_full = idle["dc_voltage"][:, 0], full["dc_voltage"][:, 0]
         i_idle = 2.0 * idle["rectifier_average_current"]

@@ -1,6 +1,6 @@
 """Transformer design of a whole population: turns, wire, layers, losses, heat, mass, cost.
 
-Part of :mod:`optimiser.transformer`; see the package docstring for the method.
+Part of :mod:`optimiser.physics.transformer`; see the package docstring for the method.
 """
 
 from __future__ import annotations
@@ -13,7 +13,7 @@ from typing import Any, Sequence
 import numba
 import numpy as np
 
-from .physics import (
+from optimiser.physics.transformer.physics import (
     COPPER_RESISTIVITY_20C,
     COPPER_DENSITY,
     COPPER_TEMPERATURE_COEFFICIENT_20C,
@@ -30,7 +30,7 @@ from .physics import (
     steinmetz_loss,
     turns_for_voltage,
 )
-from .data import (
+from optimiser.physics.transformer.data import (
     TransformerData,
     WireTable,
     load_transformer_data,

@@ -1,8 +1,8 @@
 """Time-domain solution of the whole HV supply: exact-exponential stepping and periodic steady state.
 
-The linear ladder (see :mod:`optimiser.ladder`) is stepped exactly by its matrix exponential with
+The linear ladder (see :mod:`optimiser.physics.ladder`) is stepped exactly by its matrix exponential with
 a first-order-hold on the inputs; the only nonlinearity, the rectifier path, is solved implicitly
-at each step end as a scalar complementarity problem (see :func:`optimiser.rectifier.path_step`).
+at each step end as a scalar complementarity problem (see :func:`optimiser.physics.rectifier.path_step`).
 
 A full-wave rectifier's circuit repeats every half mains cycle (the two paths take turns and are
 alike), so the periodic steady state is found by shooting over one half-cycle: Newton's method on
@@ -16,8 +16,8 @@ from dataclasses import dataclass
 
 import numba
 import numpy as np
-from .ladder import StateSpace
-from .rectifier import PathElements, path_step
+from optimiser.physics.ladder import StateSpace
+from optimiser.physics.rectifier import PathElements, path_step
 
 __all__ = ["Discretisation", "discretise", "Waveforms", "periodic_steady_state", "step_response"]
 

@@ -1,6 +1,6 @@
-"""Transformer parts data: cores, steels, wire and the price model, read from optimiser/data.
+"""Transformer parts data: cores, steels, wire and the price model, read from optimiser/parts/data.
 
-Part of :mod:`optimiser.transformer`; see the package docstring for the method.
+Part of :mod:`optimiser.physics.transformer`; see the package docstring for the method.
 """
 
 from __future__ import annotations
@@ -13,15 +13,16 @@ from typing import Any
 import numpy as np
 from pydantic import Field, field_validator, model_validator
 
-from ..yamlfile import read_yaml
-from ..schema import Strict, unit_field
-from .physics import (
+from optimiser.formats.yamlfile import read_yaml
+from optimiser.formats.schema import Strict, unit_field
+from optimiser.parts.catalogue import DATA_DIR
+from optimiser.physics.transformer.physics import (
     awg_diameter,
     steinmetz_fit,
 )
 
 
-_DATA_DIR = Path(__file__).parent.parent / "data"
+_DATA_DIR = DATA_DIR
 
 
 # --------------------------------------------------------------------------------------------
@@ -366,7 +367,7 @@ def load_transformer_data(directory: str | Path | None = None) -> TransformerDat
     Parameters
     ----------
     directory : path, optional
-        Folder holding the four files; the package's ``optimiser/data`` when omitted. Results are
+        Folder holding the four files; the package's ``optimiser/parts/data`` when omitted. Results are
         cached per folder, so edit-and-reload needs a new process.
     """
     return _load_cached(str(Path(directory) if directory is not None else _DATA_DIR),

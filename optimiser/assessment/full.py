@@ -25,9 +25,12 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from . import parts, ratings, supply, transients
-from .design import Design, load_design
-from .evaluation import Batch, SupplyResult, _groups, _result, figures, solve_batch
+from optimiser.parts import catalogue as parts
+from optimiser.physics import ratings
+from optimiser.physics import supply
+from optimiser.physics import transients
+from optimiser.inputs.design import Design, load_design
+from optimiser.assessment.steady_state import Batch, SupplyResult, _groups, _result, figures, solve_batch
 
 __all__ = ["Assessment", "PairAssessment", "AssessmentTable", "assess", "assess_many",
            "CORNERS"]
@@ -186,7 +189,7 @@ def _diode_part(design):
     has_silicon = r.topology != "centre-tap" or r.valve is None
     if not has_silicon or not (r.diode is None or isinstance(r.diode, str)):
         return None
-    from .evaluation import DEFAULT_DIODE
+    from optimiser.assessment.steady_state import DEFAULT_DIODE
 
     return parts.find_part("diode", r.diode or DEFAULT_DIODE)
 
@@ -484,7 +487,7 @@ def _detail_curves(designs, sag, rectifier_start):
     valve after its warm-up), the charge-up with the output valves cold, the idle load once they
     have warmed up, then the idle steady state to the end of the span.
     """
-    from .ladder import state_space
+    from optimiser.physics.ladder import state_space
 
     out = []
     for j, d in enumerate(designs):

@@ -1,8 +1,8 @@
 """The spec file: what a builder knows before anything is designed, and what may be searched.
 
 A spec is YAML with a unit string for every physical value, validated like the design file
-(:mod:`optimiser.design`): every problem is one line ``file:line:col: dotted.path: message``,
-collected into one :class:`~optimiser.design.DesignError`.
+(:mod:`optimiser.inputs.design`): every problem is one line ``file:line:col: dotted.path: message``,
+collected into one :class:`~optimiser.inputs.design.DesignError`.
 
 Sections::
 
@@ -49,10 +49,10 @@ from typing import Annotated, Literal, Optional
 
 from pydantic import BeforeValidator, Field, field_validator, model_validator
 
-from . import parts
-from .design import Conditions, register_user_data
-from .yamlfile import DesignError, _positioned, read_yaml, validate
-from .schema import (
+from optimiser.parts import catalogue as parts
+from optimiser.inputs.design import Conditions, register_user_data
+from optimiser.formats.yamlfile import DesignError, _positioned, read_yaml, validate
+from optimiser.formats.schema import (
     Capacitance,
     Current,
     CurrentDensity,
@@ -466,7 +466,7 @@ class Choices(Strict):
 
 
 def _transformer_data():
-    from .transformer import load_transformer_data
+    from optimiser.physics.transformer import load_transformer_data
 
     return load_transformer_data()
 
@@ -574,7 +574,7 @@ class Spec(Strict):
     margins: Margins = Margins()
     costs: Costs = Costs()
     search: SearchSettings = SearchSettings()
-    #: the user's own parts files (same layout as optimiser/data/*.yaml), relative to this file
+    #: the user's own parts files (same layout as optimiser/parts/data/*.yaml), relative to this file
     parts_files: list[str] = []
     #: the user's own folder of transformer data (cores, steels, wire, prices), relative to it
     transformer_data: Optional[str] = None

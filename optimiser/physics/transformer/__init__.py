@@ -33,7 +33,7 @@ Conventions
 - Infeasible designs give flags, never exceptions; only malformed input raises ``ValueError``.
 """
 
-from .physics import (
+from optimiser.physics.transformer.physics import (
     COPPER_RESISTIVITY_20C,
     COPPER_TEMPERATURE_COEFFICIENT_20C,
     COPPER_DENSITY,
@@ -55,12 +55,12 @@ from .physics import (
     area_product_required,
     ei_area_product,
 )
-from .data import (
+from optimiser.physics.transformer.data import (
     TransformerData,
     load_transformer_data,
     use_user_folder,
 )
-from .population import (
+from optimiser.physics.transformer.population import (
     wire_size_for_current,
     AuxiliaryWinding,
     WindingPopulation,
@@ -68,17 +68,6 @@ from .population import (
     TransformerPopulation,
     TransformerDesign,
     design_population,
-)
-from .block import (
-    TransformerBuild,
-    HvWindingBlock,
-    HeaterWindingBlock,
-    BiasWindingBlock,
-    build_from_block,
-)
-from .ordersheet import (
-    order_sheet,
-    order_sheet_markdown,
 )
 
 __all__ = [
@@ -112,11 +101,4 @@ __all__ = [
     "TransformerPopulation",
     "TransformerDesign",
     "design_population",
-    "TransformerBuild",
-    "HvWindingBlock",
-    "HeaterWindingBlock",
-    "BiasWindingBlock",
-    "build_from_block",
-    "order_sheet",
-    "order_sheet_markdown",
 ]

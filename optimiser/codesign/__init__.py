@@ -1,0 +1,7 @@
+"""The search: a spec turned into decision variables, the screening tier that scores a
+population, pymoo's NSGA-II, and the full re-check of what it keeps. ``optimise`` is the entry
+point."""
+
+from optimiser.codesign.problem import optimise
+
+__all__ = ["optimise"]
