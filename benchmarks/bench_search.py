@@ -39,7 +39,7 @@ sys.path.insert(0, str(ROOT))
 from optimiser.physics import analytic  # noqa: E402
 from optimiser.codesign import screening  # noqa: E402
 from optimiser.codesign import nsga as search  # noqa: E402
-from optimiser.codesign.problem import optimise  # noqa: E402
+from optimiser.codesign.run import optimise  # noqa: E402
 from optimiser.inputs.spec import load_spec  # noqa: E402
 
 

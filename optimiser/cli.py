@@ -247,7 +247,7 @@ def _optimise(args) -> int:
     import time
     from pathlib import Path
 
-    from optimiser.codesign.problem import optimise
+    from optimiser.codesign.run import optimise
     from optimiser.outputs.results import render_impossible, write_results
     from optimiser.inputs.spec import load_spec, spec_name
 

@@ -10,7 +10,8 @@ import pytest
 
 from optimiser.physics import analytic
 from optimiser.physics import transients
-from optimiser.codesign.problem import CoDesign, optimise
+from optimiser.codesign.problem import CoDesign
+from optimiser.codesign.run import optimise
 from optimiser.assessment.steady_state import Batch, _groups
 from optimiser.physics.ladder import state_space
 from optimiser.codesign.nsga import random_population

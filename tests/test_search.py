@@ -16,7 +16,8 @@ from pymoo.indicators.hv import HV
 from optimiser import evaluate
 from optimiser.codesign import nsga as search
 from optimiser.cli import main
-from optimiser.codesign.problem import CoDesign, optimise
+from optimiser.codesign.problem import CoDesign
+from optimiser.codesign.run import optimise
 from optimiser.inputs.design import DesignError, load_design
 from optimiser.inputs.spec import load_spec
 

@@ -2,6 +2,6 @@
 population, pymoo's NSGA-II, and the full re-check of what it keeps. ``optimise`` is the entry
 point."""
 
-from optimiser.codesign.problem import optimise
+from optimiser.codesign.run import optimise
 
 __all__ = ["optimise"]

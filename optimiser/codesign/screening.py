@@ -41,7 +41,7 @@ from optimiser.physics import ladder
 from optimiser.parts import catalogue as parts
 from optimiser.physics import ratings
 from optimiser.physics import transients
-from optimiser.codesign.problem import BLEEDER_SERIES
+from optimiser.codesign.options import BLEEDER_SERIES
 from optimiser.inputs.design import Feed
 from optimiser.assessment.steady_state import DEFAULT_DIODE, LEAKAGE_CONDUCTANCE, MIN_PATH_RESISTANCE, path_elements_of
 from optimiser.physics.rectifier import PathElements

@@ -1,0 +1,117 @@
+"""The whole job: search a spec, re-check in full what the search kept, pick the front and its
+knee, and say which constraints no design met.
+
+:func:`optimise` makes the :class:`~optimiser.codesign.problem.CoDesign` of a spec (and its
+screen, calibrated before the first generation), runs NSGA-II on it
+(:func:`optimiser.codesign.nsga.run`, steered by the screen), assesses the final population and
+the search's archive in full (:meth:`~optimiser.codesign.scoring.Scoring.score`), and reports
+only those full figures: the feasible non-dominated designs at the spec's resolution
+(:func:`reported_front`), the knee, the unmet constraints.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+import optimiser.codesign.nsga as search
+from optimiser.codesign.objectives import Unmet
+from optimiser.codesign.problem import CoDesign
+from optimiser.codesign.scoring import Scored
+from optimiser.inputs.spec import Spec
+
+__all__ = ["Optimisation", "optimise", "reported_front"]
+
+
+@dataclass(frozen=True)
+class Optimisation:
+    """The outcome of :func:`optimise`.
+
+    Attributes
+    ----------
+    spec : Spec
+    binding : CoDesign
+    search : SearchResult
+    scored : Scored
+        The full assessment of the search's final population and its archive of the best
+        designs found on the way (distinct designs).
+    front : ndarray of int
+        Rows of ``scored`` that meet every constraint and are non-dominated, by cost.
+    knee : int or None
+        Row of ``scored`` recommended (the front's knee); None when the front is empty.
+    unmet : tuple of Unmet
+        Constraints that no design of the final assessment met (the search's final population
+        and the best designs it found on the way).
+    """
+
+    spec: Spec
+    binding: CoDesign
+    search: object
+    scored: Scored
+    front: np.ndarray
+    knee: int | None
+    unmet: tuple
+
+    @property
+    def found(self) -> bool:
+        """Whether any design met every constraint."""
+        return len(self.front) > 0
+
+    def nearest(self, count=3):
+        """The designs that came closest: [(row, [(ConstraintInfo, value) missed])]."""
+        violation = np.maximum(self.scored.G, 0.0).sum(axis=1)
+        rows = np.argsort(violation, kind="stable")[:count]
+        return [(int(r), [(info, float(g)) for info, g in
+                          zip(self.binding.constraints, self.scored.G[r]) if g > 0])
+                for r in rows]
+
+
+def reported_front(F, feasible, resolution):
+    """Rows of the feasible, non-dominated designs, telling apart only objective differences
+    larger than the spec's resolution (of designs that tie, the cheapest is kept); by cost."""
+    steps = np.array([resolution.cost, resolution.regulation, resolution.rectifier_stress])
+    coarse = np.where(steps > 0, np.round(F / np.where(steps > 0, steps, 1.0)) * steps, F)
+    order = np.lexsort((F[:, 2], F[:, 1], F[:, 0]))
+    rank = np.empty(len(F), int)
+    rank[order] = np.arange(len(F))
+    rows = np.flatnonzero(feasible)
+    rows = rows[np.argsort(rank[rows])]
+    front = rows[np.sort(search.non_dominated(coarse[rows]))]
+    return front[np.argsort(F[front, 0], kind="stable")]
+
+
+def optimise(spec: Spec, *, population=None, generations=None, seed=None, workers=None,
+             progress=False) -> Optimisation:
+    """Search a spec's design space for the Pareto front of cost, regulation and rectifier stress.
+
+    Parameters
+    ----------
+    spec : Spec
+    population, generations, seed, workers : int, optional
+        Override the spec's search settings.
+    progress : bool
+        Show a progress bar on stderr.
+
+    Returns
+    -------
+    Optimisation
+        With an empty front (and ``unmet`` saying why) when no design meets every constraint.
+    """
+    settings = spec.search
+    binding = CoDesign(spec)
+    binding.screen  # made (and calibrated) before the search, not in its first generation
+    result = search.run(binding, population=population or settings.population,
+                        generations=generations or settings.generations,
+                        seed=settings.seed if seed is None else seed,
+                        workers=workers or settings.workers, progress=progress)
+    # the search steered by the screen; what it kept is assessed in full, and only that counts
+    kept = np.vstack([result.X, result.archive]) if len(result.archive) else result.X
+    candidates = list(dict.fromkeys(binding.decode(kept)))
+    scored = binding.score(binding.designs(candidates))
+    front = reported_front(scored.F, scored.feasible, spec.search.resolution)
+    knee = int(front[search.knee(scored.F[front])]) if len(front) else None
+    unmet = tuple(Unmet(info, float(best)) for info, best in
+                  zip(binding.constraints, scored.G.min(axis=0)) if best > 0)
+    return Optimisation(spec=spec, binding=binding, search=result, scored=scored, front=front,
+                        knee=knee, unmet=unmet)
