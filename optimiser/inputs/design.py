@@ -13,22 +13,8 @@ from typing import Annotated, Literal, Optional, Union
 from pydantic import Field, ValidationError, field_validator, model_validator
 
 from optimiser.formats.yamlfile import DesignError, read_yaml, validate
-from optimiser.formats.schema import (
-    Capacitance,
-    Current,
-    Fraction,
-    Frequency,
-    Inductance,
-    Perveance,
-    Power,
-    Resistance,
-    Strict,
-    Temperature,
-    TemperatureRise,
-    Time,
-    Voltage,
-    unique_names,
-)
+from optimiser.formats.ranges import ranged as R
+from optimiser.formats.schema import Fraction, Strict, unique_names
 
 __all__ = [
     "DesignError",
@@ -50,15 +36,13 @@ __all__ = [
 TOPOLOGIES = ("bridge", "centre-tap", "hybrid-bridge")
 
 
-Positive = Field(gt=0)
-NonNegative = Field(ge=0)
 
 
 class Mains(Strict):
     """Nominal mains supply."""
 
-    voltage: Annotated[Voltage, Positive]
-    frequency: Annotated[Frequency, Positive]
+    voltage: R("mains_voltage")
+    frequency: R("mains_frequency")
 
 
 class EquivalentTransformer(Strict):
@@ -69,11 +53,11 @@ class EquivalentTransformer(Strict):
     :class:`optimiser.physics.transformer.TransformerBuild`): the equivalent is then computed from it.
     """
 
-    secondary_voltage: Optional[Annotated[Voltage, Positive]] = None
-    secondary_resistance: Optional[Annotated[Resistance, NonNegative]] = None
-    leakage_inductance: Annotated[Inductance, NonNegative] = 0.0
+    secondary_voltage: Optional[R("secondary_voltage")] = None
+    secondary_resistance: Optional[R("secondary_resistance")] = None
+    leakage_inductance: R("leakage_inductance") = 0.0
     #: RMS current the HV winding is rated for (per half-winding for centre-tap)
-    rated_current: Optional[Annotated[Current, Positive]] = None
+    rated_current: Optional[R("winding_current")] = None
     build: Optional["TransformerBuild"] = None
 
     @model_validator(mode="after")
@@ -91,23 +75,23 @@ class EquivalentTransformer(Strict):
 class DiodeModel(Strict):
     """SPICE-style silicon diode parameters."""
 
-    saturation_current: Annotated[Current, Positive]
+    saturation_current: R("saturation_current")
     emission_coefficient: float = Field(gt=0, le=4)
-    series_resistance: Annotated[Resistance, NonNegative] = 0.0
+    series_resistance: R("diode_resistance") = 0.0
 
 
 class ValveModel(Strict):
     """Vacuum diode per plate by the Child-Langmuir law."""
 
-    perveance: Annotated[Perveance, Positive]
+    perveance: R("perveance")
 
 
 class Reservoir(Strict):
     """A switchable position's own reservoir capacitor (replaces the first node's)."""
 
-    capacitance: Annotated[Capacitance, Positive]
-    esr: Annotated[Resistance, NonNegative] = 0.0
-    rated_voltage: Optional[Annotated[Voltage, Positive]] = None
+    capacitance: R("capacitance")
+    esr: R("esr") = 0.0
+    rated_voltage: Optional[R("capacitor_voltage")] = None
     capacitor_series: Optional[str] = None
 
 
@@ -147,10 +131,10 @@ class Rectifier(Strict):
 class Load(Strict):
     """A node's load: constant current, a resistance, or idle and full-power currents."""
 
-    current: Optional[Annotated[Current, NonNegative]] = None
-    resistance: Optional[Annotated[Resistance, Positive]] = None
-    idle_current: Optional[Annotated[Current, NonNegative]] = None
-    full_power_current: Optional[Annotated[Current, NonNegative]] = None
+    current: Optional[R("load_current")] = None
+    resistance: Optional[R("load_resistance")] = None
+    idle_current: Optional[R("load_current")] = None
+    full_power_current: Optional[R("load_current")] = None
 
     @model_validator(mode="after")
     def _one_form(self):
@@ -167,12 +151,12 @@ class Load(Strict):
 class Feed(Strict):
     """What joins a node to the one before it: a resistor, or a choke (L with its resistance)."""
 
-    resistance: Annotated[Resistance, NonNegative] = 0.0
-    inductance: Annotated[Inductance, NonNegative] = 0.0
+    resistance: R("feed_resistance") = 0.0
+    inductance: R("feed_inductance") = 0.0
     #: a dropping resistor's power rating
-    power_rating: Optional[Annotated[Power, Positive]] = None
+    power_rating: Optional[R("power_rating")] = None
     #: a choke's DC current rating
-    current_rating: Optional[Annotated[Current, Positive]] = None
+    current_rating: Optional[R("current_rating")] = None
 
     @model_validator(mode="after")
     def _not_a_short(self):
@@ -183,16 +167,16 @@ class Feed(Strict):
 
 class Node(Strict):
     name: str = Field(min_length=1, pattern=r"^[A-Za-z0-9_+-][A-Za-z0-9_ +-]*$")
-    capacitance: Annotated[Capacitance, Positive]
-    esr: Annotated[Resistance, NonNegative] = 0.0
+    capacitance: R("capacitance")
+    esr: R("esr") = 0.0
     feed: Optional[Feed] = None
     load: Optional[Load] = None
     #: the capacitor's rated DC voltage, and the catalogue series it comes from
-    rated_voltage: Optional[Annotated[Voltage, Positive]] = None
+    rated_voltage: Optional[R("capacitor_voltage")] = None
     capacitor_series: Optional[str] = None
     #: bleeder resistor across this node's capacitor, and its power rating
-    bleeder: Optional[Annotated[Resistance, Positive]] = None
-    bleeder_power_rating: Optional[Annotated[Power, Positive]] = None
+    bleeder: Optional[R("bleeder")] = None
+    bleeder_power_rating: Optional[R("power_rating")] = None
 
 
 class Conditions(Strict):
@@ -205,20 +189,20 @@ class Conditions(Strict):
     #: capacitor tolerance; the catalogue series' own when not given
     capacitor_minus: Optional[Annotated[Fraction, Field(ge=0, lt=1)]] = None
     capacitor_plus: Optional[Annotated[Fraction, Field(ge=0, lt=2)]] = None
-    ambient: Temperature = 40.0
+    ambient: R("ambient") = 40.0
     #: capacitor self-heating at its rated ripple current
-    ripple_self_heating: Annotated[TemperatureRise, Field(gt=0)] = 5.0
+    ripple_self_heating: R("self_heating") = 5.0
     #: time the output valves take to start drawing current after switch-on
-    output_valve_warm_up: Annotated[Time, Field(ge=0)] = 15.0
+    output_valve_warm_up: R("warm_up") = 15.0
     #: warm-up of a valve rectifier with no figure in its data
-    rectifier_warm_up: Annotated[Time, Field(ge=0)] = 10.0
+    rectifier_warm_up: R("warm_up") = 10.0
     #: margin asked of silicon PIV ratings over the worst reverse voltage
     silicon_piv_margin: Annotated[Fraction, Field(ge=0, lt=2)] = 0.20
-    safe_voltage: Annotated[Voltage, Positive] = 60.0
-    discharge_time_limit: Annotated[Time, Positive] = 60.0
+    safe_voltage: R("safe_voltage") = 60.0
+    discharge_time_limit: R("discharge_limit") = 60.0
     #: the sag test: full power for this long, then idle for this long
-    sag_hold: Annotated[Time, Positive] = 0.6
-    sag_release: Annotated[Time, Positive] = 0.8
+    sag_hold: R("sag_step") = 0.6
+    sag_release: R("sag_step") = 0.8
     capacitor_series: str = "generic-105C-radial"
 
 

@@ -52,17 +52,12 @@ from pydantic import BeforeValidator, Field, field_validator, model_validator
 from optimiser.parts import catalogue as parts
 from optimiser.inputs.design import Conditions, register_user_data
 from optimiser.formats.yamlfile import DesignError, _positioned, read_yaml, validate
+from optimiser.formats.ranges import ranged as R
 from optimiser.formats.schema import (
-    Capacitance,
-    Current,
     CurrentDensity,
-    FluxDensity,
     Fraction,
-    Frequency,
-    Resistance,
     Strict,
     Temperature,
-    Time,
     Voltage,
     unique_names,
 )
@@ -109,8 +104,8 @@ Decibels = Annotated[float, BeforeValidator(_decibels)]
 class MainsSpec(Strict):
     """The mains the amplifier runs from."""
 
-    voltage: Annotated[Voltage, Positive]
-    frequency: Annotated[Frequency, Positive]
+    voltage: R("mains_voltage")
+    frequency: R("mains_frequency")
     tolerance: Annotated[Fraction, Field(ge=0, lt=0.5)] = 0.10
 
 
@@ -118,12 +113,12 @@ class NodeSpec(Strict):
     """One B+ node: what it must deliver, and how clean."""
 
     name: str = Field(min_length=1, pattern=r"^[A-Za-z0-9_+-][A-Za-z0-9_ +-]*$")
-    dc_voltage: Annotated[Voltage, Positive]
-    window: Annotated[Voltage, Positive]
+    dc_voltage: R("bplus_voltage")
+    window: R("bplus_window")
     at: Literal["idle", "full-power"] = "idle"
-    idle_current: Annotated[Current, NonNegative]
-    full_power_current: Annotated[Current, NonNegative]
-    ripple: Optional[Annotated[Voltage, Positive]] = None
+    idle_current: R("load_current")
+    full_power_current: R("load_current")
+    ripple: Optional[R("ripple")] = None
     hum: Optional[Annotated[Decibels, Positive]] = None
 
     @model_validator(mode="after")
@@ -152,8 +147,8 @@ class NodeSpec(Strict):
 
 
 class TimeWindow(Strict):
-    min: Optional[Annotated[Time, NonNegative]] = None
-    max: Optional[Annotated[Time, Positive]] = None
+    min: Optional[R("sag_time")] = None
+    max: Optional[Annotated[R("sag_time"), Positive]] = None
 
     @model_validator(mode="after")
     def _ordered(self):
@@ -178,8 +173,8 @@ class Winding(Strict):
     """A heater winding on the same transformer (voltage end to end, RMS current)."""
 
     name: str = Field(pattern=r"^[A-Za-z][A-Za-z0-9_.-]*$")
-    voltage: Annotated[Voltage, Positive]
-    current: Annotated[Current, Positive]
+    voltage: R("heater_voltage")
+    current: Annotated[R("heater_current"), Positive]
     centre_tap: bool = False
 
     @field_validator("name")
@@ -197,8 +192,8 @@ RECTIFIER_HEATER = "rectifier-heater"
 class BiasWinding(Strict):
     """An auxiliary (bias supply) winding."""
 
-    voltage: Annotated[Voltage, Positive]
-    current: Annotated[Current, Positive]
+    voltage: R("bias_voltage")
+    current: Annotated[R("bias_current"), Positive]
     centre_tap: bool = False
 
 
@@ -308,8 +303,8 @@ class RectifierOption(PositionOption):
 
 
 class VoltageRange(Strict):
-    min: Annotated[Voltage, Positive]
-    max: Annotated[Voltage, Positive]
+    min: R("secondary_voltage")
+    max: R("secondary_voltage")
     step: Annotated[Voltage, Positive] = 1.0
 
     @model_validator(mode="after")
@@ -320,8 +315,8 @@ class VoltageRange(Strict):
 
 
 class CurrentRange(Strict):
-    min: Annotated[Current, Positive]
-    max: Annotated[Current, Positive]
+    min: R("winding_current")
+    max: R("winding_current")
 
     @model_validator(mode="after")
     def _ordered(self):
@@ -331,8 +326,8 @@ class CurrentRange(Strict):
 
 
 class CurrentDensityRange(Strict):
-    min: Annotated[CurrentDensity, Positive]
-    max: Annotated[CurrentDensity, Positive]
+    min: R("current_density")
+    max: R("current_density")
     step: Annotated[CurrentDensity, Positive] = 0.05e6
 
     @model_validator(mode="after")
@@ -346,9 +341,9 @@ class CapacitorChoice(Strict):
     """A capacitor series and the range of values the search may use from it."""
 
     series: str
-    min: Annotated[Capacitance, Positive]
-    max: Annotated[Capacitance, Positive]
-    voltage_ratings: Optional[list[Annotated[Voltage, Positive]]] = None
+    min: R("capacitance")
+    max: R("capacitance")
+    voltage_ratings: Optional[list[R("capacitor_voltage")]] = None
 
     @field_validator("series")
     @classmethod
@@ -396,8 +391,8 @@ class CapacitorChoice(Strict):
 
 
 class ResistorOptions(Strict):
-    min: Annotated[Resistance, Positive]
-    max: Annotated[Resistance, Positive]
+    min: Annotated[R("feed_resistance"), Positive]
+    max: Annotated[R("feed_resistance"), Positive]
     series: Literal["E3", "E6", "E12", "E24"] = "E12"
 
     @model_validator(mode="after")
@@ -480,11 +475,11 @@ class TransformerChoices(Strict):
     turns and the highest primary tap put the real peak a little above the design figure.
     """
 
-    primaries: Optional[list[Annotated[Voltage, Positive]]] = None
+    primaries: Optional[list[R("mains_voltage")]] = None
     primary_arrangement: Literal["taps", "dual"] = "taps"
     cores: Optional[list[str]] = None
     steel: str
-    max_flux_density: Annotated[FluxDensity, Field(gt=0, le=2.0)]
+    max_flux_density: R("flux_density")
     current_density: CurrentDensityRange = CurrentDensityRange(min="2 A/mm^2", max="4.5 A/mm^2")
     insulation_class: Literal["A", "E", "B", "F", "H"] = "B"
     screen: bool = True
