@@ -21,10 +21,12 @@ high_none     high mains, +tol   high         valves cold (switch-on voltages, P
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
+from optimiser.assessment import validity
 from optimiser.parts import catalogue as parts
 from optimiser.physics import ratings
 from optimiser.physics import supply
@@ -568,9 +570,15 @@ def assess_many(designs, *, detail=False, dynamics=True) -> AssessmentTable:
             if results[i] is None:
                 results[i] = PairAssessment(positions={})
             results[i].positions[name] = a
+    # figures that are not a working supply (no convergence, a collapsed node): flagged here
+    unworkable = [[] for _ in parsed]
+    for (i, name), a, d in zip(owner, flat_results, flat):
+        unworkable[i] += [f"{'' if name is None else f'position {name}: '}{p}"
+                          for p in validity.problems(a, d)]
     rows, ratio_rows = [], []
-    for a in results:
-        row = {"rectifier_stress": a.rectifier_stress, "passed": a.passed}
+    for a, bad in zip(results, unworkable):
+        row = {"rectifier_stress": a.rectifier_stress, "passed": a.passed and not bad,
+               "unworkable": "; ".join(bad)}
         members = a.positions.items() if isinstance(a, PairAssessment) else [(None, a)]
         for name, one in members:
             prefix = "" if name is None else f"{name}/"
@@ -597,4 +605,9 @@ def _row(a: Assessment) -> dict:
 
 def assess(design, *, detail=True) -> Assessment:
     """Assess one design (see :func:`assess_many`)."""
-    return assess_many([design], detail=detail).assessments[0]
+    table = assess_many([design], detail=detail)
+    reasons = table.frame["unworkable"].iloc[0]
+    if reasons:
+        raise validity.UnworkableDesign([f"{design}: no working supply: {r}" if isinstance(
+            design, (str, Path)) else f"no working supply: {r}" for r in reasons.split("; ")])
+    return table.assessments[0]

@@ -699,6 +699,9 @@ class CoDesign:
         ratios = {name: table.ratios[name].to_numpy(float) for name in table.ratios.columns}
         buildable = np.array([_buildable(d) for d in designs])
         regulation, G = self.constraint_values(figures, buildable, self._made(designs), ratios)
+        # no working steady state (assessment.validity): infeasible on every constraint
+        unworkable = fr["unworkable"].astype(bool).to_numpy()
+        G[unworkable] = np.maximum(G[unworkable], 1.0)
 
         lines = [self.parts_list(d) for d in designs]
         cost = np.array([sum(line.cost for line in ls) for ls in lines])
@@ -933,7 +936,14 @@ class Optimisation:
     def nearest(self, count=3):
         """The designs that came closest: [(row, [(ConstraintInfo, value) missed])]."""
         violation = np.maximum(self.scored.G, 0.0).sum(axis=1)
-        rows = np.argsort(violation, kind="stable")[:count]
+        rows, seen = [], set()  # distinct designs: a population holds many copies of one
+        for r in np.argsort(violation, kind="stable"):
+            key = self.scored.designs[r].model_dump_json()
+            if key not in seen:
+                seen.add(key)
+                rows.append(r)
+            if len(rows) == count:
+                break
         return [(int(r), [(info, float(g)) for info, g in
                           zip(self.binding.constraints, self.scored.G[r]) if g > 0])
                 for r in rows]
