@@ -22,7 +22,8 @@ class DesignError(ValueError):
     """One or more problems in a design or spec file; ``problems`` holds one line per problem."""
 
     def __init__(self, problems):
-        self.problems = list(problems)
+        # one line per problem, whatever a key or value held
+        self.problems = [str(p).replace("\r", "\\r").replace("\n", "\\n") for p in problems]
         super().__init__("\n".join(self.problems))
 
 
@@ -197,7 +198,7 @@ def _message(error) -> str:
         if msg.startswith(prefix):
             msg = msg[len(prefix):]
     if error["type"] == "extra_forbidden":
-        msg = "unknown key (check the spelling; see the example designs in specs/)"
+        msg = "unknown key (check the spelling, and see the example designs in specs/)"
     elif error["type"] == "missing":
         msg = "required key is missing"
     return msg

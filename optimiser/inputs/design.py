@@ -333,10 +333,61 @@ def load_design(source) -> Design:
         return source
     if isinstance(source, dict):
         register_user_data(source, Path.cwd(), "design")
-        return validate(Design, source)
+        return _validated(source, None, "design")
     data, node = read_yaml(source)
     register_user_data(data, Path(source).parent, str(source))
-    return validate(Design, data, node, str(source))
+    return _validated(data, node, str(source))
+
+
+def _validated(data, node, source) -> Design:
+    """Validate, reporting unknown part names together with every other problem."""
+    unknown = part_name_problems(data, node, source)
+    try:
+        design = validate(Design, data, node, source)
+    except DesignError as exc:
+        raise DesignError(exc.problems + [p for p in unknown if p not in exc.problems]) from None
+    if unknown:
+        raise DesignError(unknown)
+    return design
+
+
+def part_name_problems(data, node=None, source="design") -> list[str]:
+    """One line per part named in a design that no catalogue holds (rectifier diode and valve,
+    capacitor series), positioned like the schema's problems."""
+    from optimiser.formats.yamlfile import _positioned
+    from optimiser.parts import catalogue as parts
+
+    def get(tree, *keys):
+        for key in keys:
+            tree = tree.get(key) if isinstance(tree, dict) else None
+        return tree
+
+    wanted = []  # (kind, location)
+    rect = get(data, "rectifier")
+    blocks = [((), rect)]
+    if isinstance(get(rect, "positions"), dict):
+        blocks += [(("positions", name), p) for name, p in rect["positions"].items()]
+    for where, block in blocks:
+        wanted += [(kind, ("rectifier",) + where + (kind,)) for kind in ("diode", "valve")
+                   if isinstance(get(block, kind), str)]
+        if isinstance(get(block, "reservoir", "capacitor_series"), str):
+            wanted.append(("capacitor", ("rectifier",) + where + ("reservoir", "capacitor_series")))
+    nodes = get(data, "nodes")
+    for k, n in enumerate(nodes if isinstance(nodes, list) else []):
+        if isinstance(get(n, "capacitor_series"), str):
+            wanted.append(("capacitor", ("nodes", k, "capacitor_series")))
+    if isinstance(get(data, "conditions", "capacitor_series"), str):
+        wanted.append(("capacitor", ("conditions", "capacitor_series")))
+    out = []
+    for kind, loc in wanted:
+        name = data
+        for key in loc:
+            name = name[key]
+        try:
+            parts.find_part(kind, name)
+        except LookupError as exc:
+            out.append(_positioned(node, loc, str(exc.args[0] if exc.args else exc), source))
+    return out
 
 
 def register_user_data(data: dict, folder: Path, source: str) -> None:
