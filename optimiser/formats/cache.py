@@ -81,7 +81,7 @@ class CompileWatch:
         if self._depth == 0:
             if self._started is None and self.seconds == 0.0:
                 print("compiling the simulation's loops for this machine (first run after an "
-                      "install; about 30-60 s, cached for later runs) ...", file=self.stream,
+                      "install; up to a minute, cached for later runs) ...", file=self.stream,
                       flush=True)
             self._started = time.perf_counter()
         self._depth += 1
