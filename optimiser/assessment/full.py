@@ -21,16 +21,13 @@ high_none     high mains, +tol   high         valves cold (switch-on voltages, P
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
 from optimiser.assessment import validity
 from optimiser.parts import catalogue as parts
-from optimiser.physics import ratings
-from optimiser.physics import supply
-from optimiser.physics import transients
+from optimiser.physics import ratings, supply, transients
 from optimiser.inputs.design import Design, load_design
 from optimiser.assessment.steady_state import Batch, SupplyResult, _groups, _result, figures, solve_batch
 
@@ -570,15 +567,10 @@ def assess_many(designs, *, detail=False, dynamics=True) -> AssessmentTable:
             if results[i] is None:
                 results[i] = PairAssessment(positions={})
             results[i].positions[name] = a
-    # figures that are not a working supply (no convergence, a collapsed node): flagged here
-    unworkable = [[] for _ in parsed]
-    for (i, name), a, d in zip(owner, flat_results, flat):
-        unworkable[i] += [f"{'' if name is None else f'position {name}: '}{p}"
-                          for p in validity.problems(a, d)]
     rows, ratio_rows = [], []
-    for a, bad in zip(results, unworkable):
+    for a, bad in zip(results, validity.per_design(len(parsed), owner, flat_results, flat)):
         row = {"rectifier_stress": a.rectifier_stress, "passed": a.passed and not bad,
-               "unworkable": "; ".join(bad)}
+               "unworkable": bad}  # no working supply (assessment.validity): its reasons
         members = a.positions.items() if isinstance(a, PairAssessment) else [(None, a)]
         for name, one in members:
             prefix = "" if name is None else f"{name}/"
@@ -604,10 +596,5 @@ def _row(a: Assessment) -> dict:
 
 
 def assess(design, *, detail=True) -> Assessment:
-    """Assess one design (see :func:`assess_many`)."""
-    table = assess_many([design], detail=detail)
-    reasons = table.frame["unworkable"].iloc[0]
-    if reasons:
-        raise validity.UnworkableDesign([f"{design}: no working supply: {r}" if isinstance(
-            design, (str, Path)) else f"no working supply: {r}" for r in reasons.split("; ")])
-    return table.assessments[0]
+    """Assess one design (see :func:`assess_many`); one with no working supply is refused."""
+    return validity.refused(assess_many([design], detail=detail), design).assessments[0]

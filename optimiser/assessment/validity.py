@@ -9,10 +9,11 @@ cause, never printed as figures or ranked by a search.
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 from optimiser.formats.yamlfile import DesignError
 
-__all__ = ["UnworkableDesign", "problems", "HINT"]
+__all__ = ["UnworkableDesign", "problems", "per_design", "refused", "HINT"]
 
 #: Highest believable B+ over the winding's peak EMF: a capacitor-input supply charges at
 #: most to the peak, and the high-mains corner adds its tolerance (below 50 %). [-]
@@ -62,3 +63,23 @@ def problems(assessment, design) -> list[str]:
     if out:
         out[-1] += f" ({HINT})"
     return out
+
+
+def per_design(count, owner, assessments, designs) -> list[str]:
+    """:func:`problems` of each switch position, gathered per design and joined by "; "
+    ("" for a working design; ``owner`` is [(design index, position name or None)] of each
+    position)."""
+    out = [[] for _ in range(count)]
+    for (i, name), a, d in zip(owner, assessments, designs):
+        out[i] += [f"{'' if name is None else f'position {name}: '}{p}" for p in problems(a, d)]
+    return ["; ".join(reasons) for reasons in out]
+
+
+def refused(table, source):
+    """Return an assessment table of one design, or raise :class:`UnworkableDesign` with one
+    line per reason when its ``unworkable`` column holds any."""
+    reasons = table.frame["unworkable"].iloc[0]
+    if not reasons:
+        return table
+    where = f"{source}: " if isinstance(source, (str, Path)) else ""
+    raise UnworkableDesign([f"{where}no working supply: {r}" for r in reasons.split("; ")])
