@@ -1,6 +1,12 @@
 """Railwright: co-design of a valve amplifier's power transformer and high-voltage supply."""
 
-from optimiser.assessment.steady_state import evaluate, evaluate_many
+# before numba is first imported: a read-only install caches the compiled loops in the user's
+# cache folder instead (see optimiser.formats.cache)
+from optimiser.formats.cache import choose_cache_folder as _choose_cache_folder
+
+_choose_cache_folder()
+
+from optimiser.assessment.steady_state import evaluate, evaluate_many  # noqa: E402
 
 
 def optimise(spec, **settings):

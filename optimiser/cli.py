@@ -1,7 +1,9 @@
 """Command line: ``railwright evaluate | transformer | optimise | report``.
 
-Only parses arguments, calls the library and prints. Bad input exits with status 2 and one
-line per problem, never a traceback.
+Only parses arguments, calls the library and prints. Exit statuses (README, "Exit statuses"):
+0 every check passes (or a front was found), 1 evaluated but a check fails (or nothing meets the
+spec), 2 bad input with one line per problem, 3 an internal error (a bug; one line, no traceback
+unless RAILWRIGHT_DEBUG=1), 130 interrupted.
 """
 
 from __future__ import annotations
@@ -15,9 +17,15 @@ from optimiser.inputs.design import DesignError
 from optimiser.formats.units import format_quantity
 from optimiser.formats.writing import CAUTION, write_text_atomic
 
-EXIT_BAD_INPUT = 2
-#: ``optimise`` found no design that meets the spec
+EXIT_PASSED = 0
+#: ``evaluate``: the design was evaluated but a check fails; ``optimise``: no design meets the spec
+EXIT_CHECK_FAILS = 1
 EXIT_NOTHING_FOUND = 1
+#: bad input: a file, an option, or a design with no working steady state
+EXIT_BAD_INPUT = 2
+#: a bug in Railwright (reported in one line; RAILWRIGHT_DEBUG=1 shows the traceback)
+EXIT_INTERNAL = 3
+EXIT_INTERRUPTED = 130
 
 
 
@@ -116,7 +124,7 @@ def _evaluate(args) -> int:
         path = write_report(design_report(args.design), args.report)
         # stderr, so that --json output stays one JSON object
         print(f"report written to {path}", file=sys.stderr)
-    return 0
+    return EXIT_PASSED if result.passed else EXIT_CHECK_FAILS
 
 
 def render_pair(pair) -> str:
@@ -263,6 +271,11 @@ def _optimise(args) -> int:
     result = optimise(spec, population=args.population, generations=args.generations,
                       seed=args.seed, workers=args.workers,
                       progress=not args.quiet and sys.stderr.isatty())
+    unworkable = int(result.scored.frame["unworkable"].astype(bool).sum())
+    if unworkable:
+        print(f"{unworkable} of the {len(result.scored.frame)} designs re-checked in full had no "
+              "working steady state (no convergence or a collapsed node) and count as "
+              "infeasible", file=sys.stderr)
     if not result.found:
         print(render_impossible(result), file=sys.stderr)
         return EXIT_NOTHING_FOUND
@@ -290,9 +303,14 @@ COMMANDS = {"optimise": _optimise, "evaluate": _evaluate, "transformer": _transf
 
 
 def main(argv=None) -> int:
+    import os
+
+    from optimiser.formats.cache import CompileWatch
+
     args = _parser().parse_args(argv)
     try:
-        return COMMANDS[args.command](args)
+        with CompileWatch() as watch:
+            status = COMMANDS[args.command](args)
     except DesignError as exc:
         for line in exc.problems:
             print(f"error: {line}", file=sys.stderr)
@@ -300,3 +318,16 @@ def main(argv=None) -> int:
     except LookupError as exc:
         print(f"error: {exc.args[0] if exc.args else exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        print("interrupted", file=sys.stderr)
+        return EXIT_INTERRUPTED
+    except Exception as exc:  # a bug: one line, not a traceback, unless asked for
+        if os.environ.get("RAILWRIGHT_DEBUG"):
+            raise
+        text = " ".join(str(exc).split())[:300]
+        print(f"internal error (a bug in Railwright; RAILWRIGHT_DEBUG=1 shows where): "
+              f"{type(exc).__name__}: {text}", file=sys.stderr)
+        return EXIT_INTERNAL
+    if watch.summary():
+        print(watch.summary(), file=sys.stderr)
+    return status

@@ -321,6 +321,8 @@ def test_impossible_spec_exits_1_with_the_report_and_writes_nothing(tmp_path, ca
     err = capsys.readouterr().err
     assert "No design met every constraint" in err
     assert "plates DC at idle at least 570 V" in err and "outside" in err
+    nearest = [line for line in err.splitlines() if line[:5].strip().rstrip(".").isdigit()]
+    assert nearest and len(set(nearest)) == len(nearest), nearest  # distinct nearest designs
     assert not out.exists() and [p.name for p in tmp_path.iterdir()] == ["impossible.yaml"]
 
 

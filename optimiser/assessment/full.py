@@ -25,10 +25,9 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from optimiser.assessment import validity
 from optimiser.parts import catalogue as parts
-from optimiser.physics import ratings
-from optimiser.physics import supply
-from optimiser.physics import transients
+from optimiser.physics import ratings, supply, transients
 from optimiser.inputs.design import Design, load_design
 from optimiser.assessment.steady_state import Batch, SupplyResult, _groups, _result, figures, solve_batch
 
@@ -569,8 +568,9 @@ def assess_many(designs, *, detail=False, dynamics=True) -> AssessmentTable:
                 results[i] = PairAssessment(positions={})
             results[i].positions[name] = a
     rows, ratio_rows = [], []
-    for a in results:
-        row = {"rectifier_stress": a.rectifier_stress, "passed": a.passed}
+    for a, bad in zip(results, validity.per_design(len(parsed), owner, flat_results, flat)):
+        row = {"rectifier_stress": a.rectifier_stress, "passed": a.passed and not bad,
+               "unworkable": bad}  # no working supply (assessment.validity): its reasons
         members = a.positions.items() if isinstance(a, PairAssessment) else [(None, a)]
         for name, one in members:
             prefix = "" if name is None else f"{name}/"
@@ -596,5 +596,5 @@ def _row(a: Assessment) -> dict:
 
 
 def assess(design, *, detail=True) -> Assessment:
-    """Assess one design (see :func:`assess_many`)."""
-    return assess_many([design], detail=detail).assessments[0]
+    """Assess one design (see :func:`assess_many`); one with no working supply is refused."""
+    return validity.refused(assess_many([design], detail=detail), design).assessments[0]

@@ -61,7 +61,14 @@ class Optimisation:
     def nearest(self, count=3):
         """The designs that came closest: [(row, [(ConstraintInfo, value) missed])]."""
         violation = np.maximum(self.scored.G, 0.0).sum(axis=1)
-        rows = np.argsort(violation, kind="stable")[:count]
+        rows, seen = [], set()  # distinct designs: a population holds many copies of one
+        for r in np.argsort(violation, kind="stable"):
+            key = self.scored.designs[r].model_dump_json()
+            if key not in seen:
+                seen.add(key)
+                rows.append(r)
+            if len(rows) == count:
+                break
         return [(int(r), [(info, float(g)) for info, g in
                           zip(self.binding.constraints, self.scored.G[r]) if g > 0])
                 for r in rows]

@@ -118,6 +118,9 @@ class Scoring:
         buildable = np.array([_buildable(d) for d in designs])
         regulation, G = self.objectives.constraint_values(figures, buildable,
                                                           self._made(designs), ratios)
+        # no working steady state (assessment.validity): infeasible on every constraint
+        unworkable = fr["unworkable"].astype(bool).to_numpy()
+        G[unworkable] = np.maximum(G[unworkable], 1.0)
 
         lines = [self.parts_list(d) for d in designs]
         cost = np.array([sum(line.cost for line in ls) for ls in lines])

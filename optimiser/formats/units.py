@@ -51,6 +51,9 @@ def _dimension_of(pint_unit: str) -> str:
     return str(_registry().Quantity(1.0, pint_unit).dimensionality)
 
 
+#: Longest unit string read ("4.7 kohm"; "2.5 A/mm^2"); a longer one is refused before parsing.
+MAX_UNIT_STRING = 40
+
 _NUMBER = re.compile(r"^\s*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*(.*?)\s*$")
 # Unit words we refuse because pint reads them as something no builder means.
 _TRAPS = {
@@ -124,6 +127,9 @@ def parse_quantity(text, dimension: str, *, allow_bare_number: bool = False) -> 
         raise UnitError(f"a {dimension} needs a unit, e.g. '{text} {si}'; got the bare number {text!r}")
     if not isinstance(text, str):
         raise UnitError(f"expected a {dimension} as a string with a unit, got {type(text).__name__}")
+    if len(text) > MAX_UNIT_STRING:
+        raise UnitError(f"'{text[:20]}...' is {len(text):,} characters long; a value with its "
+                        f"unit is at most {MAX_UNIT_STRING} (e.g. '47 uF')")
     if "," in text:
         raise UnitError(f"'{text}': use '.' as the decimal point and no thousands separator")
     m = _NUMBER.match(text)

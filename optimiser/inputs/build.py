@@ -9,15 +9,11 @@ from typing import Literal
 
 from pydantic import Field, ValidationInfo, field_validator, model_validator
 
+from optimiser.formats.ranges import ranged as R
 from optimiser.formats.schema import Strict
 from optimiser.physics.transformer.data import (
     TransformerData,
-    _NonNegativeCurrent,
-    _PositiveCurrentDensity,
-    _PositiveFluxDensity,
     _PositiveLength,
-    _PositiveVoltage,
-    _Temperature,
     load_transformer_data,
 )
 from optimiser.physics.transformer.population import (
@@ -44,8 +40,8 @@ class HvWindingBlock(Strict):
     centre-tapped winding, each half ("300-0-300 V" is voltage "300 V").
     """
 
-    voltage: _PositiveVoltage
-    current: _NonNegativeCurrent
+    voltage: R("secondary_voltage")
+    current: R("winding_current")
     centre_tapped: bool = False
 
 
@@ -53,16 +49,16 @@ class HeaterWindingBlock(Strict):
     """A heater winding: ``voltage`` end to end at rated load, ``current`` RMS; a centre tap is a tap."""
 
     name: str = _WindingName
-    voltage: _PositiveVoltage
-    current: _NonNegativeCurrent
+    voltage: R("heater_voltage")
+    current: R("heater_current")
     centre_tapped: bool = False
 
 
 class BiasWindingBlock(Strict):
     """The bias supply winding: ``voltage`` end to end at rated load, ``current`` RMS."""
 
-    voltage: _PositiveVoltage
-    current: _NonNegativeCurrent
+    voltage: R("bias_voltage")
+    current: R("bias_current")
     centre_tapped: bool = False
 
 
@@ -80,15 +76,15 @@ class TransformerBuild(Strict):
     against other data files than the packaged ones).
     """
 
-    primaries: list[_PositiveVoltage] = Field(min_length=1, max_length=8)
+    primaries: list[R("mains_voltage")] = Field(min_length=1, max_length=8)
     primary_arrangement: Literal["taps", "dual"] = "taps"
     core: str
     stack: _PositiveLength
     steel: str
-    max_flux_density: _PositiveFluxDensity
-    current_density: _PositiveCurrentDensity
+    max_flux_density: R("flux_density")
+    current_density: R("current_density")
     insulation_class: Literal["A", "E", "B", "F", "H"]
-    ambient: _Temperature
+    ambient: R("ambient")
     hv: HvWindingBlock
     heaters: list[HeaterWindingBlock] = Field(default_factory=list)
     bias: BiasWindingBlock | None = None

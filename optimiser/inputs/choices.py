@@ -16,12 +16,9 @@ from typing import Annotated, Literal, Optional
 from pydantic import Field, field_validator, model_validator
 
 from optimiser.parts import catalogue as parts
+from optimiser.formats.ranges import ranged as R
 from optimiser.formats.schema import (
-    Capacitance,
-    Current,
     CurrentDensity,
-    FluxDensity,
-    Resistance,
     Strict,
     Voltage,
 )
@@ -137,8 +134,8 @@ class RectifierOption(PositionOption):
 
 
 class VoltageRange(Strict):
-    min: Annotated[Voltage, Positive]
-    max: Annotated[Voltage, Positive]
+    min: R("secondary_voltage")
+    max: R("secondary_voltage")
     step: Annotated[Voltage, Positive] = 1.0
 
     @model_validator(mode="after")
@@ -149,8 +146,8 @@ class VoltageRange(Strict):
 
 
 class CurrentRange(Strict):
-    min: Annotated[Current, Positive]
-    max: Annotated[Current, Positive]
+    min: R("winding_current")
+    max: R("winding_current")
 
     @model_validator(mode="after")
     def _ordered(self):
@@ -160,8 +157,8 @@ class CurrentRange(Strict):
 
 
 class CurrentDensityRange(Strict):
-    min: Annotated[CurrentDensity, Positive]
-    max: Annotated[CurrentDensity, Positive]
+    min: R("current_density")
+    max: R("current_density")
     step: Annotated[CurrentDensity, Positive] = 0.05e6
 
     @model_validator(mode="after")
@@ -175,9 +172,9 @@ class CapacitorChoice(Strict):
     """A capacitor series and the range of values the search may use from it."""
 
     series: str
-    min: Annotated[Capacitance, Positive]
-    max: Annotated[Capacitance, Positive]
-    voltage_ratings: Optional[list[Annotated[Voltage, Positive]]] = None
+    min: R("capacitance")
+    max: R("capacitance")
+    voltage_ratings: Optional[list[R("capacitor_voltage")]] = None
 
     @field_validator("series")
     @classmethod
@@ -225,8 +222,8 @@ class CapacitorChoice(Strict):
 
 
 class ResistorOptions(Strict):
-    min: Annotated[Resistance, Positive]
-    max: Annotated[Resistance, Positive]
+    min: Annotated[R("feed_resistance"), Positive]
+    max: Annotated[R("feed_resistance"), Positive]
     series: Literal["E3", "E6", "E12", "E24"] = "E12"
 
     @model_validator(mode="after")
@@ -309,11 +306,11 @@ class TransformerChoices(Strict):
     turns and the highest primary tap put the real peak a little above the design figure.
     """
 
-    primaries: Optional[list[Annotated[Voltage, Positive]]] = None
+    primaries: Optional[list[R("mains_voltage")]] = None
     primary_arrangement: Literal["taps", "dual"] = "taps"
     cores: Optional[list[str]] = None
     steel: str
-    max_flux_density: Annotated[FluxDensity, Field(gt=0, le=2.0)]
+    max_flux_density: R("flux_density")
     current_density: CurrentDensityRange = CurrentDensityRange(min="2 A/mm^2", max="4.5 A/mm^2")
     insulation_class: Literal["A", "E", "B", "F", "H"] = "B"
     screen: bool = True

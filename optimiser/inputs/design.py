@@ -13,22 +13,8 @@ from typing import Annotated, Literal, Optional, Union
 from pydantic import Field, ValidationError, field_validator, model_validator
 
 from optimiser.formats.yamlfile import DesignError, read_yaml, validate
-from optimiser.formats.schema import (
-    Capacitance,
-    Current,
-    Fraction,
-    Frequency,
-    Inductance,
-    Perveance,
-    Power,
-    Resistance,
-    Strict,
-    Temperature,
-    TemperatureRise,
-    Time,
-    Voltage,
-    unique_names,
-)
+from optimiser.formats.ranges import ranged as R
+from optimiser.formats.schema import Fraction, Strict, unique_names
 
 __all__ = [
     "DesignError",
@@ -50,15 +36,13 @@ __all__ = [
 TOPOLOGIES = ("bridge", "centre-tap", "hybrid-bridge")
 
 
-Positive = Field(gt=0)
-NonNegative = Field(ge=0)
 
 
 class Mains(Strict):
     """Nominal mains supply."""
 
-    voltage: Annotated[Voltage, Positive]
-    frequency: Annotated[Frequency, Positive]
+    voltage: R("mains_voltage")
+    frequency: R("mains_frequency")
 
 
 class EquivalentTransformer(Strict):
@@ -69,11 +53,11 @@ class EquivalentTransformer(Strict):
     :class:`optimiser.physics.transformer.TransformerBuild`): the equivalent is then computed from it.
     """
 
-    secondary_voltage: Optional[Annotated[Voltage, Positive]] = None
-    secondary_resistance: Optional[Annotated[Resistance, NonNegative]] = None
-    leakage_inductance: Annotated[Inductance, NonNegative] = 0.0
+    secondary_voltage: Optional[R("secondary_voltage")] = None
+    secondary_resistance: Optional[R("secondary_resistance")] = None
+    leakage_inductance: R("leakage_inductance") = 0.0
     #: RMS current the HV winding is rated for (per half-winding for centre-tap)
-    rated_current: Optional[Annotated[Current, Positive]] = None
+    rated_current: Optional[R("winding_current")] = None
     build: Optional["TransformerBuild"] = None
 
     @model_validator(mode="after")
@@ -91,23 +75,23 @@ class EquivalentTransformer(Strict):
 class DiodeModel(Strict):
     """SPICE-style silicon diode parameters."""
 
-    saturation_current: Annotated[Current, Positive]
+    saturation_current: R("saturation_current")
     emission_coefficient: float = Field(gt=0, le=4)
-    series_resistance: Annotated[Resistance, NonNegative] = 0.0
+    series_resistance: R("diode_resistance") = 0.0
 
 
 class ValveModel(Strict):
     """Vacuum diode per plate by the Child-Langmuir law."""
 
-    perveance: Annotated[Perveance, Positive]
+    perveance: R("perveance")
 
 
 class Reservoir(Strict):
     """A switchable position's own reservoir capacitor (replaces the first node's)."""
 
-    capacitance: Annotated[Capacitance, Positive]
-    esr: Annotated[Resistance, NonNegative] = 0.0
-    rated_voltage: Optional[Annotated[Voltage, Positive]] = None
+    capacitance: R("capacitance")
+    esr: R("esr") = 0.0
+    rated_voltage: Optional[R("capacitor_voltage")] = None
     capacitor_series: Optional[str] = None
 
 
@@ -147,10 +131,10 @@ class Rectifier(Strict):
 class Load(Strict):
     """A node's load: constant current, a resistance, or idle and full-power currents."""
 
-    current: Optional[Annotated[Current, NonNegative]] = None
-    resistance: Optional[Annotated[Resistance, Positive]] = None
-    idle_current: Optional[Annotated[Current, NonNegative]] = None
-    full_power_current: Optional[Annotated[Current, NonNegative]] = None
+    current: Optional[R("load_current")] = None
+    resistance: Optional[R("load_resistance")] = None
+    idle_current: Optional[R("load_current")] = None
+    full_power_current: Optional[R("load_current")] = None
 
     @model_validator(mode="after")
     def _one_form(self):
@@ -167,12 +151,12 @@ class Load(Strict):
 class Feed(Strict):
     """What joins a node to the one before it: a resistor, or a choke (L with its resistance)."""
 
-    resistance: Annotated[Resistance, NonNegative] = 0.0
-    inductance: Annotated[Inductance, NonNegative] = 0.0
+    resistance: R("feed_resistance") = 0.0
+    inductance: R("feed_inductance") = 0.0
     #: a dropping resistor's power rating
-    power_rating: Optional[Annotated[Power, Positive]] = None
+    power_rating: Optional[R("power_rating")] = None
     #: a choke's DC current rating
-    current_rating: Optional[Annotated[Current, Positive]] = None
+    current_rating: Optional[R("current_rating")] = None
 
     @model_validator(mode="after")
     def _not_a_short(self):
@@ -183,16 +167,16 @@ class Feed(Strict):
 
 class Node(Strict):
     name: str = Field(min_length=1, pattern=r"^[A-Za-z0-9_+-][A-Za-z0-9_ +-]*$")
-    capacitance: Annotated[Capacitance, Positive]
-    esr: Annotated[Resistance, NonNegative] = 0.0
+    capacitance: R("capacitance")
+    esr: R("esr") = 0.0
     feed: Optional[Feed] = None
     load: Optional[Load] = None
     #: the capacitor's rated DC voltage, and the catalogue series it comes from
-    rated_voltage: Optional[Annotated[Voltage, Positive]] = None
+    rated_voltage: Optional[R("capacitor_voltage")] = None
     capacitor_series: Optional[str] = None
     #: bleeder resistor across this node's capacitor, and its power rating
-    bleeder: Optional[Annotated[Resistance, Positive]] = None
-    bleeder_power_rating: Optional[Annotated[Power, Positive]] = None
+    bleeder: Optional[R("bleeder")] = None
+    bleeder_power_rating: Optional[R("power_rating")] = None
 
 
 class Conditions(Strict):
@@ -205,20 +189,20 @@ class Conditions(Strict):
     #: capacitor tolerance; the catalogue series' own when not given
     capacitor_minus: Optional[Annotated[Fraction, Field(ge=0, lt=1)]] = None
     capacitor_plus: Optional[Annotated[Fraction, Field(ge=0, lt=2)]] = None
-    ambient: Temperature = 40.0
+    ambient: R("ambient") = 40.0
     #: capacitor self-heating at its rated ripple current
-    ripple_self_heating: Annotated[TemperatureRise, Field(gt=0)] = 5.0
+    ripple_self_heating: R("self_heating") = 5.0
     #: time the output valves take to start drawing current after switch-on
-    output_valve_warm_up: Annotated[Time, Field(ge=0)] = 15.0
+    output_valve_warm_up: R("warm_up") = 15.0
     #: warm-up of a valve rectifier with no figure in its data
-    rectifier_warm_up: Annotated[Time, Field(ge=0)] = 10.0
+    rectifier_warm_up: R("warm_up") = 10.0
     #: margin asked of silicon PIV ratings over the worst reverse voltage
     silicon_piv_margin: Annotated[Fraction, Field(ge=0, lt=2)] = 0.20
-    safe_voltage: Annotated[Voltage, Positive] = 60.0
-    discharge_time_limit: Annotated[Time, Positive] = 60.0
+    safe_voltage: R("safe_voltage") = 60.0
+    discharge_time_limit: R("discharge_limit") = 60.0
     #: the sag test: full power for this long, then idle for this long
-    sag_hold: Annotated[Time, Positive] = 0.6
-    sag_release: Annotated[Time, Positive] = 0.8
+    sag_hold: R("sag_step") = 0.6
+    sag_release: R("sag_step") = 0.8
     capacitor_series: str = "generic-105C-radial"
 
 
@@ -349,10 +333,61 @@ def load_design(source) -> Design:
         return source
     if isinstance(source, dict):
         register_user_data(source, Path.cwd(), "design")
-        return validate(Design, source)
+        return _validated(source, None, "design")
     data, node = read_yaml(source)
     register_user_data(data, Path(source).parent, str(source))
-    return validate(Design, data, node, str(source))
+    return _validated(data, node, str(source))
+
+
+def _validated(data, node, source) -> Design:
+    """Validate, reporting unknown part names together with every other problem."""
+    unknown = part_name_problems(data, node, source)
+    try:
+        design = validate(Design, data, node, source)
+    except DesignError as exc:
+        raise DesignError(exc.problems + [p for p in unknown if p not in exc.problems]) from None
+    if unknown:
+        raise DesignError(unknown)
+    return design
+
+
+def part_name_problems(data, node=None, source="design") -> list[str]:
+    """One line per part named in a design that no catalogue holds (rectifier diode and valve,
+    capacitor series), positioned like the schema's problems."""
+    from optimiser.formats.yamlfile import _positioned
+    from optimiser.parts import catalogue as parts
+
+    def get(tree, *keys):
+        for key in keys:
+            tree = tree.get(key) if isinstance(tree, dict) else None
+        return tree
+
+    wanted = []  # (kind, location)
+    rect = get(data, "rectifier")
+    blocks = [((), rect)]
+    if isinstance(get(rect, "positions"), dict):
+        blocks += [(("positions", name), p) for name, p in rect["positions"].items()]
+    for where, block in blocks:
+        wanted += [(kind, ("rectifier",) + where + (kind,)) for kind in ("diode", "valve")
+                   if isinstance(get(block, kind), str)]
+        if isinstance(get(block, "reservoir", "capacitor_series"), str):
+            wanted.append(("capacitor", ("rectifier",) + where + ("reservoir", "capacitor_series")))
+    nodes = get(data, "nodes")
+    for k, n in enumerate(nodes if isinstance(nodes, list) else []):
+        if isinstance(get(n, "capacitor_series"), str):
+            wanted.append(("capacitor", ("nodes", k, "capacitor_series")))
+    if isinstance(get(data, "conditions", "capacitor_series"), str):
+        wanted.append(("capacitor", ("conditions", "capacitor_series")))
+    out = []
+    for kind, loc in wanted:
+        name = data
+        for key in loc:
+            name = name[key]
+        try:
+            parts.find_part(kind, name)
+        except LookupError as exc:
+            out.append(_positioned(node, loc, str(exc.args[0] if exc.args else exc), source))
+    return out
 
 
 def register_user_data(data: dict, folder: Path, source: str) -> None:

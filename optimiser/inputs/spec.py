@@ -52,14 +52,11 @@ from pydantic import BeforeValidator, Field, field_validator, model_validator
 
 from optimiser.inputs.design import Conditions, register_user_data
 from optimiser.formats.yamlfile import DesignError, _positioned, read_yaml, validate
+from optimiser.formats.ranges import ranged as R
 from optimiser.formats.schema import (
-    Current,
     Fraction,
-    Frequency,
     Strict,
     Temperature,
-    Time,
-    Voltage,
     unique_names,
 )
 from optimiser.inputs.choices import (  # noqa: F401 (the spec's names, here too)
@@ -112,8 +109,8 @@ Decibels = Annotated[float, BeforeValidator(_decibels)]
 class MainsSpec(Strict):
     """The mains the amplifier runs from."""
 
-    voltage: Annotated[Voltage, Positive]
-    frequency: Annotated[Frequency, Positive]
+    voltage: R("mains_voltage")
+    frequency: R("mains_frequency")
     tolerance: Annotated[Fraction, Field(ge=0, lt=0.5)] = 0.10
 
 
@@ -121,12 +118,12 @@ class NodeSpec(Strict):
     """One B+ node: what it must deliver, and how clean."""
 
     name: str = Field(min_length=1, pattern=r"^[A-Za-z0-9_+-][A-Za-z0-9_ +-]*$")
-    dc_voltage: Annotated[Voltage, Positive]
-    window: Annotated[Voltage, Positive]
+    dc_voltage: R("bplus_voltage")
+    window: R("bplus_window")
     at: Literal["idle", "full-power"] = "idle"
-    idle_current: Annotated[Current, NonNegative]
-    full_power_current: Annotated[Current, NonNegative]
-    ripple: Optional[Annotated[Voltage, Positive]] = None
+    idle_current: R("load_current")
+    full_power_current: R("load_current")
+    ripple: Optional[R("ripple")] = None
     hum: Optional[Annotated[Decibels, Positive]] = None
 
     @model_validator(mode="after")
@@ -155,8 +152,8 @@ class NodeSpec(Strict):
 
 
 class TimeWindow(Strict):
-    min: Optional[Annotated[Time, NonNegative]] = None
-    max: Optional[Annotated[Time, Positive]] = None
+    min: Optional[R("sag_time")] = None
+    max: Optional[Annotated[R("sag_time"), Positive]] = None
 
     @model_validator(mode="after")
     def _ordered(self):
@@ -181,8 +178,8 @@ class Winding(Strict):
     """A heater winding on the same transformer (voltage end to end, RMS current)."""
 
     name: str = Field(pattern=r"^[A-Za-z][A-Za-z0-9_.-]*$")
-    voltage: Annotated[Voltage, Positive]
-    current: Annotated[Current, Positive]
+    voltage: R("heater_voltage")
+    current: Annotated[R("heater_current"), Positive]
     centre_tap: bool = False
 
     @field_validator("name")
@@ -200,8 +197,8 @@ RECTIFIER_HEATER = "rectifier-heater"
 class BiasWinding(Strict):
     """An auxiliary (bias supply) winding."""
 
-    voltage: Annotated[Voltage, Positive]
-    current: Annotated[Current, Positive]
+    voltage: R("bias_voltage")
+    current: Annotated[R("bias_current"), Positive]
     centre_tap: bool = False
 
 
