@@ -156,13 +156,16 @@ def _choke_line(reference, feed):
                  f"priced as catalogue {c.name} (estimate)")
 
 
+from optimiser.physics.transformer.rating import va_rating  # noqa: E402  (issue #12)
+
+
 def parts_list(design) -> list:
     """Every part of a design's HV supply, with estimated costs. [cost units]"""
     lines = []
     t = design.transformer_design
     if t is not None:
         lines.append(_line("transformer", "mains transformer", 1, "custom power transformer to "
-                           "the order sheet", f"{float(t.primary_va):.0f} VA", float(t.cost),
+                           "the order sheet", format_quantity(va_rating(t), "VA"), float(t.cost),
                            "transformer price model (estimate)"))
     else:
         lines.append(_line("transformer", "mains transformer", 1, "power transformer "

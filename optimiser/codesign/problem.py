@@ -56,6 +56,7 @@ from optimiser.codesign.nsga import Variable
 from optimiser.inputs.spec import RECTIFIER_HEATER, Spec
 from optimiser.inputs.build import BiasWindingBlock, HeaterWindingBlock, HvWindingBlock, TransformerBuild
 from optimiser.physics.transformer import AuxiliaryWinding, design_population, load_transformer_data
+from optimiser.physics.transformer.rating import primary_va, va_rating
 from optimiser.formats.units import format_quantity, round_significant
 
 __all__ = [
@@ -842,7 +843,9 @@ class CoDesign:
             for group, value in groups.items():
                 row[f"cost.{group}"] = value
             if td is not None:
-                for key in ("secondary_va", "primary_va", "mass", "temperature_rise",
+                row["transformer.va_rating"] = va_rating(td)  # issue #12: one VA source
+                row["transformer.primary_va"] = primary_va(td)
+                for key in ("mass", "temperature_rise",
                             "temperature_rise_limit", "build_ratio", "flux_density",
                             "hv_regulation", "total_loss"):
                     row[f"transformer.{key}"] = float(getattr(td, key))
