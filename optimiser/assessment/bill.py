@@ -17,6 +17,7 @@ import yaml
 from optimiser.parts import catalogue as parts
 from optimiser.parts.catalogue import DATA_DIR
 from optimiser.formats.units import format_quantity
+from optimiser.physics.transformer.rating import va_rating
 
 __all__ = ["PartLine", "parts_list", "cost_breakdown", "price_of"]
 
@@ -154,9 +155,6 @@ def _choke_line(reference, feed):
     c = min(fitting, key=lambda c: c.cost)
     return _line("choke", reference, 1, desc, rating, c.cost,
                  f"priced as catalogue {c.name} (estimate)")
-
-
-from optimiser.physics.transformer.rating import va_rating  # noqa: E402  (issue #12)
 
 
 def parts_list(design) -> list:
