@@ -191,9 +191,11 @@ def order_sheet(design: TransformerDesign, data: TransformerData | None = None, 
         "primary": _primary_section(design),
         "secondaries": [_secondary_section(w, r, design.hv_open_circuit_voltage if w.role == "hv" else None)
                         for w, r in zip(design.windings[1:], ratings)],
-        "va_rating": f"{format_quantity(va_rating(design), 'VA')} (rated voltage x RMS current summed "
-        f"over every secondary winding and half; the primary draws "
-        f"{format_quantity(primary_va(design), 'VA')} at {format_quantity(design.primary_voltages[0], 'V', 4)})",
+        "va_rating": format_quantity(va_rating(design), "VA"),
+        "va_definition": "rated voltage x RMS current, summed over every secondary winding and half",
+        "primary_va": f"{format_quantity(primary_va(design), 'VA')} at "
+        f"{format_quantity(design.primary_voltages[0], 'V', 4)} and rated load (the VA rating plus "
+        "losses and magnetising current)",
         "core": {
             "lamination": f"{design.core_name}: scrapless EI, tongue {format_quantity(design.tongue_width, 'm')}",
             "stack": format_quantity(design.stack, "m"),
@@ -309,7 +311,8 @@ def order_sheet_markdown(sheet: dict) -> str:
         lines += [f"### {winding['name']}", ""]
         lines += [f"- {_markdown_title(k)}: {_markdown_value(v)}" for k, v in winding.items() if k != "name"]
         lines += [""]
-    lines += ["## Rating and construction", "", f"- {_markdown_title('va_rating')}: {sheet['va_rating']}"]
+    lines += ["## Rating and construction", "", f"- {_markdown_title('va_rating')}: {sheet['va_rating']} "
+              f"({sheet['va_definition']})", f"- Primary VA: {sheet['primary_va']}"]
     lines += [f"- {_markdown_title(k)}: {v}" for k, v in sheet["core"].items()]
     lines += [f"- Insulation, {_markdown_title(k).lower()}: {v}" for k, v in sheet["insulation"].items()]
     for key in _CONSTRUCTION_KEYS:
