@@ -27,6 +27,7 @@ import pandas as pd
 
 from optimiser.parts import catalogue as parts
 from optimiser.physics import ratings
+from optimiser.physics.transformer.corners import worst_flux_by_design
 from optimiser.physics import supply
 from optimiser.physics import transients
 from optimiser.inputs.design import Design, load_design
@@ -319,15 +320,6 @@ def _rectifier_start(design, valve):
     return float(design.conditions.rectifier_warm_up)
 
 
-def _worst_flux(designs, built):
-    """Peak flux density at each built transformer's worst corner, and that corner's label."""
-    from optimiser.physics.transformer.corners import worst_flux_density
-
-    pairs = [worst_flux_density(t, d.conditions.mains_high) if t is not None
-             else ([np.nan], ["no physical build"]) for d, t in zip(designs, built)]
-    return np.array([v[0] for v, _ in pairs], float), [c[0] for _, c in pairs]
-
-
 def _check_columns(designs, valves, diodes, solved, surge, charge_peak, steady_peak, discharge):
     f = {k: v[3] for k, v in solved.items()}
     count = len(designs)
@@ -397,11 +389,9 @@ def _check_columns(designs, valves, diodes, solved, surge, charge_peak, steady_p
     cols.append(col("transformer.window_fill", "winding build vs the window's room", "-",
                     only(has_build, _attr(built, "build_ratio")), np.where(has_build, 1.0, np.nan),
                     "the physical build: layer-by-layer winding build"))
-    flux, corner = _worst_flux(designs, built)  # issue #12: the worst tap x mains corner
-    cols.append(col("transformer.flux_density", "peak flux density at the worst primary tap "
-                    "and mains corner vs the steel's limit", "T", only(has_build, flux),
-                    _attr(built, "flux_density_limit"),
-                    [f"the steel grade's data; worst corner: {c}" for c in corner]))
+    flux, corner = worst_flux_by_design(built, [d.conditions.mains_high for d in designs])
+    cols.append(col("transformer.flux_density", "peak flux density at the worst tap and mains "
+                    "corner vs the steel's limit", "T", only(has_build, flux), _attr(built, "flux_density_limit"), corner))
     rated_rms = np.array([d.transformer.rated_current or np.nan for d in designs])
     cols.append(col("transformer.hv_rms_current", "HV winding RMS current, high mains, full "
                     "power", "A", hf["secondary_rms_current"], rated_rms,

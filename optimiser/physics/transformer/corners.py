@@ -203,3 +203,23 @@ def worst_flux_density(design, mains_high: float = 0.10, data: TransformerData |
         (flux density (n,) [T], list of the corner labels).
     """
     return operating_corners(design, 0.0, mains_high, data).worst("flux_density")
+
+
+def worst_flux_by_design(built, mains_high) -> tuple:
+    """:func:`worst_flux_density` of each of a list of designs (None: no physical build, NaN).
+
+    Returns
+    -------
+    tuple
+        (flux densities (n,) [T], list of check sources naming the worst corner).
+    """
+    values, sources = [], []
+    for t, high in zip(built, mains_high):
+        if t is None:
+            values.append(np.nan)
+            sources.append("no physical build")
+            continue
+        b, where = worst_flux_density(t, high)
+        values.append(float(b[0]))
+        sources.append(f"the steel grade's data; worst corner: {where[0]}")
+    return np.array(values, float), sources
