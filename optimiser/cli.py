@@ -94,13 +94,13 @@ def _report(args) -> int:
 
 def _transformer(args) -> int:
     from optimiser.inputs.design import load_design
-    from optimiser.outputs.ordersheet import order_sheet, order_sheet_markdown
+    from optimiser.outputs.ordersheet import order_sheet_for, order_sheet_markdown
 
     design = load_design(args.design)
     if design.transformer_design is None:
         raise DesignError([f"{args.design}: transformer: no build block; the order sheet needs a "
                            "physical transformer (see specs/demo-design-build.yaml)"])
-    sheet = order_sheet(design.transformer_design)
+    sheet = order_sheet_for(design)
     text = order_sheet_markdown(sheet)
     if args.markdown:
         write_text_atomic(args.markdown, text)

@@ -54,7 +54,7 @@ choices:
 transformer:
   cores: [EI-a28, EI-a32, EI-a35]
   steel: NO-M27-like
-  max_flux_density: 1.3 T
+  max_flux_density: 1.25 T
   current_density: {min: 2 A/mm^2, max: 4 A/mm^2, step: 0.5 A/mm^2}
 search: {population: 30, generations: 10, seed: 3}
 """
@@ -204,7 +204,7 @@ def test_non_dominated():
     ("ambient: 35 degC", "ambient: 35 degC\nconditions: {ambient: 30 degC}",
      "conditions.ambient", "set this through ambient"),
     ("  window: 40 V", "  window: 40 V\n    window: 45 V", "nodes.1.window", "duplicate key"),
-    ("  max_flux_density: 1.3 T\n", "", "transformer.max_flux_density", "required key is missing"),
+    ("  max_flux_density: 1.25 T\n", "", "transformer.max_flux_density", "required key is missing"),
 ])
 def test_spec_loader_names_field_and_line(tmp_path, old, new, field, reason):
     assert old in SMALL

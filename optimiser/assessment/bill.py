@@ -17,6 +17,7 @@ import yaml
 from optimiser.parts import catalogue as parts
 from optimiser.parts.catalogue import DATA_DIR
 from optimiser.formats.units import format_quantity
+from optimiser.physics.transformer.rating import va_rating
 
 __all__ = ["PartLine", "parts_list", "cost_breakdown", "price_of"]
 
@@ -162,7 +163,7 @@ def parts_list(design) -> list:
     t = design.transformer_design
     if t is not None:
         lines.append(_line("transformer", "mains transformer", 1, "custom power transformer to "
-                           "the order sheet", f"{float(t.primary_va):.0f} VA", float(t.cost),
+                           "the order sheet", format_quantity(va_rating(t), "VA"), float(t.cost),
                            "transformer price model (estimate)"))
     else:
         lines.append(_line("transformer", "mains transformer", 1, "power transformer "

@@ -28,6 +28,7 @@ import pandas as pd
 from optimiser.assessment import validity
 from optimiser.parts import catalogue as parts
 from optimiser.physics import ratings, supply, transients
+from optimiser.physics.transformer.corners import worst_flux_by_design
 from optimiser.inputs.design import Design, load_design
 from optimiser.assessment.steady_state import Batch, SupplyResult, _groups, _result, figures, solve_batch
 
@@ -387,10 +388,9 @@ def _check_columns(designs, valves, diodes, solved, surge, charge_peak, steady_p
     cols.append(col("transformer.window_fill", "winding build vs the window's room", "-",
                     only(has_build, _attr(built, "build_ratio")), np.where(has_build, 1.0, np.nan),
                     "the physical build: layer-by-layer winding build"))
-    cols.append(col("transformer.flux_density", "peak flux density at the highest primary "
-                    "tap voltage vs the steel's limit", "T",
-                    only(has_build, _attr(built, "flux_density")),
-                    _attr(built, "flux_density_limit"), "the steel grade's data"))
+    flux, corner = worst_flux_by_design(built, [d.conditions.mains_high for d in designs])
+    cols.append(col("transformer.flux_density", "peak flux density at the worst tap and mains "
+                    "corner vs the steel's limit", "T", only(has_build, flux), _attr(built, "flux_density_limit"), corner))
     rated_rms = np.array([d.transformer.rated_current or np.nan for d in designs])
     cols.append(col("transformer.hv_rms_current", "HV winding RMS current, high mains, full "
                     "power", "A", hf["secondary_rms_current"], rated_rms,

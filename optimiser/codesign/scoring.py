@@ -23,6 +23,7 @@ from optimiser.codesign.encoding import RECTIFIER_COLUMN, Encoding
 from optimiser.codesign.objectives import OBJECTIVES, Objectives
 from optimiser.codesign.options import Options
 from optimiser.parts import catalogue as parts
+from optimiser.physics.transformer.rating import primary_va, va_rating
 
 __all__ = ["Scored", "Scoring", "check_names"]
 
@@ -196,7 +197,9 @@ def _frame(designs, lines, F, G, table):
         for group, value in groups.items():
             row[f"cost.{group}"] = value
         if td is not None:
-            for key in ("secondary_va", "primary_va", "mass", "temperature_rise",
+            row["transformer.va_rating"] = va_rating(td)  # the one VA definition
+            row["transformer.primary_va"] = primary_va(td)
+            for key in ("mass", "temperature_rise",
                         "temperature_rise_limit", "build_ratio", "flux_density",
                         "hv_regulation", "total_loss"):
                 row[f"transformer.{key}"] = float(getattr(td, key))

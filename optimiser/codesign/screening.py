@@ -46,6 +46,7 @@ from optimiser.inputs.design import Feed
 from optimiser.assessment.steady_state import DEFAULT_DIODE, LEAKAGE_CONDUCTANCE, MIN_PATH_RESISTANCE, path_elements_of
 from optimiser.physics.rectifier import PathElements
 from optimiser.formats.units import round_significant
+from optimiser.physics.transformer.corners import worst_flux_density
 
 __all__ = ["Screen"]
 
@@ -234,7 +235,10 @@ class Screen:
                 ok = np.ones(len(members), bool)
                 for name in _BUILDABLE_FIELDS:
                     ok &= np.asarray(getattr(pop, name), bool)
-                values = np.column_stack([np.asarray(getattr(pop, f), float)
+                worst_b = worst_flux_density(pop, self.b.conditions.mains_high,
+                                             self.b.options.transformer_data)[0]
+                values = np.column_stack([worst_b if f == "flux_density" else
+                                          np.asarray(getattr(pop, f), float)
                                           for f in _TRANSFORMER_FIELDS] + [ok])
                 for j, m in enumerate(members):
                     self._transformers[new[m]] = values[j]

@@ -93,6 +93,8 @@ class TransformerBuild(Strict):
     wire: Literal["metric", "awg", "both"] = "metric"
     enamel_grade: Literal[1, 2] = 2
     mounting: str = ""
+    #: lead colours / terminal markings by winding name, replacing the order sheet's default scheme
+    leads: dict[str, str] = Field(default_factory=dict)
 
     @field_validator("core")
     @classmethod

@@ -283,7 +283,7 @@ def _knee_reason(opt) -> str:
 
 def render_summary(opt, spec_text: str, ids=None, elapsed=None) -> str:
     """The Markdown summary of a search with a non-empty front."""
-    from optimiser.outputs.ordersheet import order_sheet, order_sheet_markdown
+    from optimiser.outputs.ordersheet import order_sheet_for, order_sheet_markdown
 
     ids = ids or front_ids(opt)
     s = opt.spec
@@ -313,7 +313,7 @@ def render_summary(opt, spec_text: str, ids=None, elapsed=None) -> str:
     out += ["### Check table", ""] + _check_table(assessment) + [""]
     out += ["### Parts list", ""] + _parts_table(opt.binding.parts_list(design)) + [""]
     if design.transformer_design is not None:
-        sheet = order_sheet_markdown(order_sheet(design.transformer_design))
+        sheet = order_sheet_markdown(order_sheet_for(design))
         sheet = "\n".join(("#" * 2 + line) if line.startswith("#") else line
                           for line in sheet.splitlines())
         out += ["### Order sheet", "", sheet, ""]

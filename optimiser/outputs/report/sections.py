@@ -224,11 +224,11 @@ def _parts_table(design) -> str:
 
 
 def _transformer_html(design) -> str:
-    from optimiser.outputs.ordersheet import order_sheet, order_sheet_markdown
+    from optimiser.outputs.ordersheet import order_sheet_for, order_sheet_markdown
 
     built = design.transformer_design
     if built is not None:
-        sheet = order_sheet_markdown(order_sheet(built))
+        sheet = order_sheet_markdown(order_sheet_for(design))
         return (f'<div class="order-sheet">{_markdown_html(sheet, top=4)}</div>')
     t = design.transformer
     topologies = ([p.topology for p in design.rectifier.positions.values()] if design.switchable
