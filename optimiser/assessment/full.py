@@ -2,7 +2,8 @@
 
 Runs each design at its mains and tolerance corners, through the sag step, switch-on and
 switch-off, and compares every part with its ratings. The physics is in :mod:`supply`,
-:mod:`transients` and :mod:`ratings`; this module only chooses the corners and collects figures.
+:mod:`transients` and :mod:`ratings`, the checks in :mod:`optimiser.assessment.checks`; this
+module only chooses the corners and collects figures.
 
 Corners (mains and winding tolerance scale the EMF; capacitor tolerance scales every C):
 
@@ -27,6 +28,7 @@ import pandas as pd
 
 from optimiser.assessment import validity
 from optimiser.parts import catalogue as parts
+from optimiser.assessment import checks as check_table
 from optimiser.physics import ratings, supply, transients
 from optimiser.physics.transformer.corners import worst_flux_by_design
 from optimiser.inputs.design import Design, load_design
@@ -194,11 +196,6 @@ def _diode_part(design):
     return parts.find_part("diode", r.diode or DEFAULT_DIODE)
 
 
-def _attr(items, name, default=np.nan):
-    return np.array([default if (x is None or getattr(x, name, None) is None)
-                     else getattr(x, name) for x in items], dtype=float)
-
-
 def _provenance(items, what):
     return [f"{what} {x.name}: {x.provenance}" if x is not None else "no rating given"
             for x in items]
@@ -238,15 +235,15 @@ def _assess_group(designs, detail, dynamics=True):
     t_up, v_up = transients.charge_up(m_none, b_none.elements, b_none.peak, freq,
                                       b_none.values.load_current, CHARGE_UP_TIME)
     charge_peak = v_up.max(axis=1)
-    steady_peak = np.maximum(f_none["peak_voltage"], f["high_idle"]["peak_voltage"])
     discharge = transients.discharge_times(b_none.structure, b_none.values, f_none["dc_voltage"],
                                            np.array([d.conditions.safe_voltage
                                                      for d in designs]))
 
     valves = [_valve_part(d) for d in designs]
     diodes = [_diode_part(d) for d in designs]
-    columns = _check_columns(designs, valves, diodes, solved, surge, charge_peak, steady_peak,
-                             discharge)
+    check_figures = _check_figures(designs, valves, diodes, f, surge, charge_peak, discharge)
+    steady_peak = check_table.steady_peak(check_figures)
+    columns = check_table.evaluate(check_figures)
     stress = ratings.rectifier_stress(columns)
     if stress.size == 0:
         stress = np.full(count, np.nan)
@@ -319,124 +316,69 @@ def _rectifier_start(design, valve):
     return float(design.conditions.rectifier_warm_up)
 
 
-def _check_columns(designs, valves, diodes, solved, surge, charge_peak, steady_peak, discharge):
-    f = {k: v[3] for k, v in solved.items()}
-    count = len(designs)
-    col = ratings.column
-    cols = []
-    worst_piv = np.maximum.reduce([f[c]["piv"] for c in ("high_none", "high_idle", "high_full")])
-    hf = f["high_full"]
-    vsrc = _provenance(valves, "valve")
-    has_valve = np.array([v is not None for v in valves])
+def _check_figures(designs, valves, diodes, f, surge, charge_peak, discharge):
+    """The figures the check table reads (:class:`optimiser.assessment.checks.CheckFigures`),
+    one row per design."""
+    nodes = [[d.nodes[k] for d in designs] for k in range(len(designs[0].nodes))]
+    series = [[parts.find_part("capacitor", n.capacitor_series or d.conditions.capacitor_series)
+               for n, d in zip(ns, designs)] for ns in nodes]
+    rated = np.column_stack([[n.rated_voltage or np.nan for n in ns] for ns in nodes])
+    surge_v = np.column_stack([[s.rating(r).surge if np.isfinite(r) and _has_rating(s, r)
+                                else np.nan for s, r in zip(ss, rated[:, k])]
+                               for k, ss in enumerate(series)])
+    ripple = np.column_stack([[s.ripple_rating(n.capacitance, r)
+                               if np.isfinite(r) and _has_rating(s, r) else np.nan
+                               for s, n, r in zip(ss, ns, rated[:, k])]
+                              for k, (ss, ns) in enumerate(zip(series, nodes))])
+    feeds = [[n.feed for n in ns] for ns in nodes]
 
-    def only(mask, values):
-        return np.where(mask, values, np.nan)
-
-    c0 = np.array([d.nodes[0].capacitance for d in designs]) * (1 + np.array(
-        [_tolerances(d)[1] for d in designs]))
-    cols.append(col("valve.reservoir_capacitance", "reservoir capacitance (high tolerance) vs "
-                    "the valve's largest input capacitor", "F", only(has_valve, c0),
-                    _attr(valves, "max_input_capacitance"), vsrc, rectifier=True))
-    cols.append(col("valve.peak_plate_current", "peak plate current, high mains, full power",
-                    "A", only(has_valve, hf["rectifier_peak_current"]),
-                    _attr(valves, "max_peak_current"), vsrc, rectifier=True))
-    cols.append(col("valve.piv", "peak inverse voltage per plate, high mains", "V",
-                    only(has_valve, worst_piv), _attr(valves, "max_piv"), vsrc, rectifier=True))
-    cols.append(col("valve.dc_current", "DC output current, high mains, full power", "A",
-                    only(has_valve, 2 * hf["rectifier_average_current"]),
-                    _attr(valves, "max_dc_current"), vsrc, rectifier=True))
-    impedance = np.array([np.hypot(d.transformer.secondary_resistance,
-                                   2 * np.pi * d.mains.frequency
-                                   * d.transformer.leakage_inductance) for d in designs])
-    min_z = np.array([v.min_plate_impedance_at(d.transformer.secondary_voltage)
-                      if v is not None and v.min_plate_impedance else np.nan
-                      for d, v in zip(designs, valves)], dtype=float)
-    cols.append(col("valve.plate_supply_impedance", "effective plate-supply impedance per plate "
-                    "vs the least the valve asks", "ohm", only(has_valve, impedance), min_z, vsrc,
-                    minimum=True, rectifier=True))
-    plate_rms = np.array([d.transformer.secondary_voltage * (1 + d.conditions.mains_high)
-                          * (1 + d.conditions.transformer_tolerance) for d in designs])
-    cols.append(col("valve.plate_voltage_rms", "RMS plate voltage per plate, high mains", "V",
-                    only(has_valve, plate_rms), _attr(valves, "max_plate_voltage_rms"), vsrc,
-                    rectifier=True))
-    shared = np.array([v is not None and v.heating == "indirect" and d.rectifier.heater_shared
-                       for d, v in zip(designs, valves)])
-    cols.append(col("valve.heater_cathode_voltage", "cathode above a shared heater winding, "
-                    "valves cold, high mains", "V", only(shared, steady_peak[:, 0]),
-                    _attr(valves, "max_heater_cathode_voltage"), vsrc, rectifier=True))
-
-    dsrc = _provenance(diodes, "diode")
-    has_diode = np.array([d is not None for d in diodes])
-    margin = np.array([1 + d.conditions.silicon_piv_margin for d in designs])
-    cols.append(col("diode.piv", "worst reverse voltage plus the asked margin vs V_RRM", "V",
-                    only(has_diode, worst_piv * margin), _attr(diodes, "v_rrm"), dsrc,
-                    rectifier=True))
-    cols.append(col("diode.surge", "switch-on surge at the mains crest, empty reservoir, vs "
-                    "I_FSM", "A", only(has_diode, surge), _attr(diodes, "i_fsm"), dsrc,
-                    rectifier=True))
-    cols.append(col("diode.average_current", "average current per diode, high mains, full "
-                    "power", "A", only(has_diode, hf["rectifier_average_current"]),
-                    _attr(diodes, "i_f_avg"), dsrc, rectifier=True))
+    def feed_attr(name, default=np.nan):
+        return np.column_stack([check_table.attribute_array(fs, name, default) for fs in feeds])
 
     built = [d.transformer_design for d in designs]
-    has_build = np.array([t is not None for t in built])
-    tsrc = "the physical build: McLyman's surface-dissipation rise; IEC 60085 class limit"
-    cols.append(col("transformer.temperature_rise", "winding temperature rise vs the insulation "
-                    "class allowance at the stated ambient", "K",
-                    only(has_build, _attr(built, "temperature_rise")),
-                    _attr(built, "temperature_rise_limit"), tsrc))
-    cols.append(col("transformer.window_fill", "winding build vs the window's room", "-",
-                    only(has_build, _attr(built, "build_ratio")), np.where(has_build, 1.0, np.nan),
-                    "the physical build: layer-by-layer winding build"))
-    flux, corner = worst_flux_by_design(built, [d.conditions.mains_high for d in designs])
-    cols.append(col("transformer.flux_density", "peak flux density at the worst tap and mains "
-                    "corner vs the steel's limit", "T", only(has_build, flux), _attr(built, "flux_density_limit"), corner))
-    rated_rms = np.array([d.transformer.rated_current or np.nan for d in designs])
-    cols.append(col("transformer.hv_rms_current", "HV winding RMS current, high mains, full "
-                    "power", "A", hf["secondary_rms_current"], rated_rms,
-                    "the transformer's rated current in the design"))
-
-    for k, node in enumerate(designs[0].nodes):
-        name = node.name
-        nodes = [d.nodes[k] for d in designs]
-        rated = np.array([n.rated_voltage or np.nan for n in nodes])
-        series = [parts.find_part("capacitor", n.capacitor_series or d.conditions.capacitor_series)
-                  for n, d in zip(nodes, designs)]
-        csrc = [f"the design's rated voltage; {s.name}: {s.provenance}" for s in series]
-        cols.append(col(f"capacitor.{name}.voltage", "highest voltage: valves cold or idle, "
-                        "high mains", "V", np.maximum(steady_peak[:, k], 0), rated, csrc))
-        surge_v = np.array([s.rating(r).surge if np.isfinite(r) and _has_rating(s, r) else np.nan
-                            for s, r in zip(series, rated)])
-        cols.append(col(f"capacitor.{name}.surge_voltage", "charge-up overshoot at switch-on vs "
-                        "the surge rating", "V", charge_peak[:, k], surge_v, csrc))
-        ripple_rating = np.array([s.ripple_rating(n.capacitance, r)
-                                  if np.isfinite(r) and _has_rating(s, r) else np.nan
-                                  for s, n, r in zip(series, nodes, rated)])
-        cols.append(col(f"capacitor.{name}.ripple_current", "ripple current, high mains, full "
-                        "power", "A", hf["capacitor_rms_current"][:, k], ripple_rating, csrc))
-        if k > 0 or node.feed is not None:
-            feeds = [n.feed for n in nodes]
-            i_rms = hf["feed_rms_current"][:, k] if k > 0 else hf["secondary_rms_current"]
-            i_dc = np.abs(hf["feed_dc_current"][:, k]) if k > 0 else \
-                2 * hf["rectifier_average_current"]
-            power = np.array([fd.resistance for fd in feeds]) * i_rms ** 2
-            is_choke = np.array([fd.inductance > 0 for fd in feeds])
-            cols.append(col(f"resistor.{name}.dissipation", "dropping resistor dissipation, high "
-                            "mains, full power", "W", np.where(is_choke, np.nan, power),
-                            _attr(feeds, "power_rating"), "the design's power rating"))
-            cols.append(col(f"choke.{name}.current", "choke DC current, high mains, full power",
-                            "A", np.where(is_choke, i_dc, np.nan),
-                            _attr(feeds, "current_rating"), "the design's current rating"))
-        bleed = np.array([n.bleeder or np.nan for n in nodes])
-        cols.append(col(f"bleeder.{name}.dissipation", "bleeder dissipation at the highest "
-                        "voltage", "W", steady_peak[:, k] ** 2 / bleed,
-                        _attr(nodes, "bleeder_power_rating"), "the design's power rating"))
-        limit = np.array([d.conditions.discharge_time_limit for d in designs])
-        cols.append(col(f"bleeder.{name}.discharge_time", "time to fall below the safe voltage "
-                        "after switch-off (valves drawing nothing)", "s", discharge[:, k], limit,
-                        "conditions.discharge_time_limit (common practice, no source; local "
-                        "codes decide)"))
-    return cols
+    cond = [d.conditions for d in designs]
+    flux, flux_corner = worst_flux_by_design(built, [c.mains_high for c in cond])
+    return check_table.CheckFigures(
+        node_names=tuple(n.name for n in designs[0].nodes),
+        fed=tuple(k > 0 or ns[0].feed is not None for k, ns in enumerate(nodes)),
+        high_none=f["high_none"], high_full=f["high_full"], high_idle=f["high_idle"],
+        surge_current=surge, charge_peak=charge_peak, discharge_time=discharge,
+        hv_voltage=np.array([d.transformer.secondary_voltage for d in designs], float),
+        hv_resistance=np.array([d.transformer.secondary_resistance for d in designs], float),
+        hv_leakage_inductance=np.array([d.transformer.leakage_inductance for d in designs],
+                                       float),
+        frequency=np.array([d.mains.frequency for d in designs], float),
+        mains_high=np.array([c.mains_high for c in cond], float),
+        transformer_tolerance=np.array([c.transformer_tolerance for c in cond], float),
+        silicon_piv_margin=np.array([c.silicon_piv_margin for c in cond], float),
+        discharge_time_limit=np.array([c.discharge_time_limit for c in cond], float),
+        temperature_rise=check_table.attribute_array(built, "temperature_rise"),
+        temperature_rise_limit=check_table.attribute_array(built, "temperature_rise_limit"),
+        build_ratio=check_table.attribute_array(built, "build_ratio"),
+        flux_density=flux, flux_corner=flux_corner,
+        flux_density_limit=check_table.attribute_array(built, "flux_density_limit"),
+        hv_rated_current=np.array([d.transformer.rated_current or np.nan for d in designs]),
+        has_valve=np.array([v is not None for v in valves]),
+        has_diode=np.array([d is not None for d in diodes]),
+        heater_shared=np.array([v is not None and v.heating == "indirect"
+                                and d.rectifier.heater_shared
+                                for d, v in zip(designs, valves)], bool),
+        valves=valves, rectifier_ratings=check_table.rectifier_ratings(valves, diodes),
+        capacitance=np.column_stack([[n.capacitance for n in ns] for ns in nodes]),
+        capacitance_plus=np.array([_tolerances(d)[1] for d in designs]),
+        capacitor_rated_voltage=rated, capacitor_surge_rating=surge_v,
+        capacitor_ripple_rating=ripple,
+        feed_resistance=feed_attr("resistance", 0.0),
+        feed_inductance=feed_attr("inductance", 0.0),
+        feed_power_rating=feed_attr("power_rating"),
+        feed_current_rating=feed_attr("current_rating"),
+        bleeder_resistance=np.column_stack([[n.bleeder or np.nan for n in ns] for ns in nodes]),
+        bleeder_power_rating=np.column_stack(
+            [check_table.attribute_array(ns, "bleeder_power_rating") for ns in nodes]),
+        provenance={"valve": _provenance(valves, "valve"), "diode": _provenance(diodes, "diode"),
+                    "capacitor": [[f"the design's rated voltage; {s.name}: {s.provenance}"
+                                   for s in ss] for ss in series]},
+    )
 
 
 def _has_rating(series, rated_voltage):
