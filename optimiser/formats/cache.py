@@ -117,5 +117,6 @@ class CompileWatch:
         """One line for the user after a run that compiled, else None."""
         if self.seconds <= 0.0:
             return None
-        where = os.environ.get("NUMBA_CACHE_DIR") or "beside the package's sources"
-        return f"compiled the loops in {self.seconds:.0f} s (cached in {where}; later runs skip this)"
+        folder = os.environ.get("NUMBA_CACHE_DIR")
+        where = f"in {folder}" if folder else "beside the package's sources"
+        return f"compiled the loops in {self.seconds:.0f} s (cached {where}; later runs skip this)"
