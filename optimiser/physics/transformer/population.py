@@ -113,26 +113,26 @@ def _solve(setup: _Setup, current_density):
                    _FIXED_POINT_PASSES + 1, np.full(setup.n, setup.ambient))
     n_p0 = first_taps[0]
     wound = setup.v_target > 0
-    safe_target = np.where(wound, setup.v_target, 1.0)
     hold = None
-    state, primary_turns, emf_primary = free, n_p0, None
+    state, path_turns = free, free["ratio"] * n_p0  # the free pass's turns (not whole)
+    primary_turns = n_p0
     for _ in range(_TURNS_ROUNDS):
-        # the turns each winding needs at the volts per turn of the last pass: its rated
-        # voltage plus its own drop, u = V + I R, over E / N_p
-        emf = setup.v_target + setup.i_rated * state["r_path"][1:]
-        if emf_primary is None:  # the free pass: ratio = u / E exactly
-            ideal = state["ratio"] * primary_turns
-        else:
-            ideal = emf * primary_turns / emf_primary
-        secondary, n_eq, _, hold = whole_turns(
-            np.where(wound, ideal, 0.0), np.where(wound, emf / safe_target, 1.0), primary_turns,
-            hold=hold, least_primary=n_p0)
+        # each winding's own drop per turn at rated current, and the primary's EMF, of the last
+        # pass (the EMF hardly moves with the primary's turns: R_p grows as the reflected
+        # current falls); held to at most 100 % compensation, as the free pass's ratios are,
+        # so that the turns of a design whose drops no ratio can make up stay finite
+        emf = np.maximum(state["e_primary"], 0.5 * setup.taps[0])
+        drop = np.where(wound, setup.i_rated * state["r_path"][1:]
+                        / np.where(wound, path_turns, 1.0), 0.0)
+        drop = np.minimum(drop, 0.5 * emf / primary_turns)
+        secondary, n_eq, _, hold = whole_turns(setup.v_target, drop, emf, primary_turns,
+                                               hold=hold, least_primary=n_p0)
         tap_turns = np.vstack([n_eq] + [np.maximum(np.rint(n_eq * v / setup.taps[0]), 1.0)
                                         for v in setup.taps[1:]])
         ratio = np.ascontiguousarray(secondary / n_eq, dtype=float)
         state = _kernel(setup, current_density, tap_turns, ratio, 0, _FINAL_PASSES + 1,
                         state["temperature"])
-        primary_turns, emf_primary = n_eq, state["e_primary"]
+        path_turns, primary_turns = secondary, n_eq
     temperature, previous = state.pop("temperature"), state.pop("previous")
     state.update(temperature=temperature, solvable=free["solvable"],
                  converged=np.abs(temperature - previous) < 0.05)

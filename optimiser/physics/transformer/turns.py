@@ -12,8 +12,9 @@ heater beside a 6.3 V one), the lowest winding is given one turn more, then anot
 winding lands within the aim (or the flux has fallen as far as the designer allows): the
 volts per turn that suits all the small windings at once.
 
-Every winding's turns are for the EMF it needs at rated load, u = V + I R (its own resistive drop
-compensated), from the fixed point's resistances.
+Every winding's turns are for the EMF it needs at rated load, its own resistive drop
+compensated: V = N (e - I rho), e the volts per turn and rho its resistance per turn from the
+fixed point's resistances (the resistance grows with the turns, so the drop is taken per turn).
 """
 
 from __future__ import annotations
@@ -29,22 +30,28 @@ MAX_EXTRA_TURNS = 8
 MAX_FLUX_FALL = 1.3
 
 
-def whole_turns(ideal, emf_ratio, primary_turns, hold=None, least_primary=None, aim=TURNS_AIM,
-                max_extra=MAX_EXTRA_TURNS, max_fall=MAX_FLUX_FALL):
+def whole_turns(target, drop_per_turn, emf_primary, primary_turns, hold=None,
+                least_primary=None, aim=TURNS_AIM, max_extra=MAX_EXTRA_TURNS,
+                max_fall=MAX_FLUX_FALL):
     """Whole turns of every secondary and of the primary from the lowest-voltage winding.
+
+    A winding of N turns per conducting path gives V = N (e - I rho) at rated load, e the volts
+    per turn and I rho its own resistive drop per turn; so the lowest-voltage winding's whole
+    turns N_L set e = V_L / N_L + I_L rho_L, the primary has N_p = E / e turns (rounded), and
+    every other winding N_s = V_s / (e - I_s rho_s) (rounded).
 
     Parameters
     ----------
-    ideal : array_like (S, n)
-        Turns per conducting path each secondary needs at the design's volts per turn (its
-        rated voltage plus its own resistive drop at rated current, over the volts per turn;
-        not rounded); 0 where the winding is not wound. The lowest-voltage winding is the one
-        with the fewest. [-]
-    emf_ratio : array_like (S, n)
-        Each secondary's EMF at rated load over its rated voltage, u / V = 1 + I R / V. [-]
+    target : array_like (S, n)
+        Each secondary's rated voltage per conducting path at rated load; 0 where the winding is
+        not wound. [V]
+    drop_per_turn : array_like (S, n)
+        Its resistive drop at rated current per turn, I R / N. [V]
+    emf_primary : array_like (n,)
+        The primary's EMF at rated load (the lowest tap's voltage less its resistive drop). [V]
     primary_turns : array_like (n,)
-        The primary's (lowest tap's) turns at the design's volts per turn (need not be whole).
-        [-]
+        The primary's (lowest tap's) turns the EMF was worked out for: E / primary_turns is the
+        design's volts per turn. [-]
     hold : tuple of array_like (n,), optional
         (index, turns): keep that winding as the lowest with those turns (a second round, after
         the resistances have moved with the first round's turns), only re-setting the volts per
@@ -63,43 +70,49 @@ def whole_turns(ideal, emf_ratio, primary_turns, hold=None, least_primary=None, 
     -------
     tuple
         (secondary turns per path (S, n), primary turns (n,), worst expected |error| (n,),
-        (index, turns) of the lowest-voltage winding), the turns whole numbers; the error is each winding's on-load voltage against its target,
-        error_s = (N_s N_p0 / (x_s N_p) - 1) u_s / V_s, with x_s the ideal turns, N_p0 and N_p
-        the primary's turns before and after.
+        (index, turns) of the lowest-voltage winding), the turns whole numbers; the error is
+        each winding's on-load voltage against its target, N_s (E / N_p - I_s rho_s) / V_s - 1.
 
     References
     ----------
     .. [1] Common practice, no source: the heater winding's whole turns set the volts per turn;
        the primary's and the HV winding's many turns round finely.
     """
-    x = np.asarray(ideal, float)
-    ratio = np.asarray(emf_ratio, float)
+    v = np.asarray(target, float)
+    d = np.asarray(drop_per_turn, float)
+    e_p = np.asarray(emf_primary, float)
     n_p0 = np.asarray(primary_turns, float)
-    wound = x > 0
-    S, n = x.shape
+    wound = v > 0
+    S, n = v.shape
     cols = np.arange(n)
+    per_turn0 = e_p / n_p0
     if hold is None:
-        lowest = np.argmin(np.where(wound, x, np.inf), axis=0)
+        lowest = np.argmin(np.where(wound, v, np.inf), axis=0)
     else:
         lowest, max_extra = np.asarray(hold[0], int), 0
     any_wound = wound.any(axis=0)
-    x_low = np.where(any_wound, x[lowest, cols], 1.0)
-    base = np.maximum(np.ceil(x_low - 1e-9), 1.0) if hold is None else np.asarray(hold[1], float)
+    v_low = np.where(any_wound, v[lowest, cols], 1.0)
+    d_low = np.where(any_wound, d[lowest, cols], 0.0)
+    if hold is None:
+        base = np.maximum(np.ceil(v_low / np.maximum(per_turn0 - d_low, 1e-12) - 1e-9), 1.0)
+    else:
+        base = np.asarray(hold[1], float)
     floor = 1.0 if least_primary is None else np.asarray(least_primary, float)
     best_turns = best_primary = best_error = best_low = None
     for k in range(max_extra + 1):
         n_low = base + k
-        n_p = np.maximum(np.rint(n_p0 * n_low / x_low), floor)
-        scale = n_p / n_p0
-        turns = np.where(wound, np.maximum(np.rint(x * scale), 1.0), 0.0)
+        per_turn = np.where(any_wound, v_low / n_low + d_low, per_turn0)
+        n_p = np.maximum(np.rint(e_p / per_turn), floor)
+        real = e_p / n_p  # volts per turn with whole primary turns
+        net = np.maximum(real[None, :] - d, 1e-12)
+        turns = np.where(wound, np.maximum(np.rint(v / net), 1.0), 0.0)
         turns[lowest, cols] = np.where(any_wound, n_low, 0.0)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            error = np.where(wound, (turns / (x * scale) - 1.0) * ratio, 0.0)
+        error = np.where(wound, turns * net / np.where(wound, v, 1.0) - 1.0, 0.0)
         worst = np.max(np.abs(error), axis=0) if S else np.zeros(n)
         if k == 0:
             best_turns, best_primary, best_error, best_low = turns, n_p, worst, n_low
             continue
-        allowed = scale <= max_fall
+        allowed = per_turn0 / real <= max_fall
         better = allowed & (best_error > aim) & (worst < best_error)
         best_turns = np.where(better, turns, best_turns)
         best_primary = np.where(better, n_p, best_primary)
