@@ -80,8 +80,9 @@ def test_each_tap_and_dual_connection_has_its_corners(tmp_path):
 def test_faraday_turns():
     # Source: EMF equation V = 4.44 f N B A_c (REFERENCES.md: published, any transformer text);
     # 230 V, 50 Hz, 1.2 T on 10 cm^2: N = 230 / (4.443 x 50 x 1.2 x 1e-3) = 862.8 turns with
-    # 4.443 = pi sqrt 2 (863.3 with the rounded 4.44); worked by hand from the equation, no
-    # handbook worked example was at hand to compare with.
+    # 4.443 = pi sqrt 2 (863.3 with the rounded 4.44); worked by hand from the equation (a
+    # textbook's worked example: tests/test_transformer.py::
+    # test_faraday_against_a_textbook_worked_example).
     assert turns_for_voltage(230.0, 50.0, 1.2, 10e-4) == pytest.approx(862.8, abs=0.1)
 
 
