@@ -128,6 +128,7 @@ BUDGET = {
     "transformer.temperature_rise": (1.0, -1e-9, 1e-9),
     "transformer.window_fill": (1.0, -1e-9, 1e-9),
     "transformer.flux_density": (1.0, -1e-9, 1e-9),
+    "transformer.winding_voltage": (1.0, -1e-9, 1e-9),
     "capacitor.{node}.voltage": (0.95, -0.01, 0.01),
     "valve.dc_current": (0.95, -0.01, 0.01),
     "diode.average_current": (0.95, -0.01, 0.01),

@@ -60,11 +60,12 @@ def test_a_design_brings_its_own_core(tmp_path):
     bundled = (Path(__file__).parents[1] / "optimiser" / "parts" / "data" / "cores.yaml").read_text()
     mine = tmp_path / "my-data"
     mine.mkdir()
-    entry = re.search(r"(?ms)^  - name: EI-a35\n.*?(?=^  - name:)", bundled).group(0)
-    (mine / "cores.yaml").write_text(bundled.replace(
-        entry, entry + entry.replace("EI-a35", "EI-my35").replace(
-            "provenance: \"", "provenance: \"invented test core; was: "), 1))
     raw = yaml.safe_load(DEMO.read_text())
+    core = raw["transformer"]["build"]["core"]  # the demo's own core, copied under a new name
+    entry = re.search(rf"(?ms)^  - name: {core}\n.*?(?=^  - name:)", bundled).group(0)
+    (mine / "cores.yaml").write_text(bundled.replace(
+        entry, entry + entry.replace(core, "EI-my35").replace(
+            "provenance: \"", "provenance: \"invented test core; was: "), 1))
     raw["transformer"]["build"]["core"] = "EI-my35"
     raw["transformer_data"] = "my-data"
     path = tmp_path / "design.yaml"

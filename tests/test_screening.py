@@ -66,8 +66,10 @@ def test_surge_at_switch_on_agrees_with_the_transient(binding):
         ratios.append(ours / theirs)
     ratios = np.concatenate(ratios)
     # within 5 % for most; the few far off have a very large leakage inductance (random
-    # cores), where the current is still rising when the simulator's two half-cycles end
-    assert np.quantile(np.abs(ratios - 1), 0.8) < 0.05 and np.abs(ratios - 1).max() < 0.2
+    # cores), where the current is still rising when the simulator's two half-cycles end (the
+    # whole-turns rule gives some random designs more turns, leakage growing as N^2: the worst
+    # of these 30 went from under 20 % to 22 %)
+    assert np.quantile(np.abs(ratios - 1), 0.8) < 0.05 and np.abs(ratios - 1).max() < 0.25
 
 
 def test_the_front_holds_only_designs_the_full_assessment_passes():

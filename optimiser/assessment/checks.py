@@ -19,6 +19,7 @@ from typing import Callable, Mapping, Sequence
 import numpy as np
 
 from optimiser.physics import ratings
+from optimiser.physics.transformer.rating import WINDING_VOLTAGE_TOLERANCE
 
 __all__ = ["CheckDef", "CheckFigures", "TABLE", "VALVE_RATINGS", "DIODE_RATINGS", "evaluate",
            "attribute_array", "rectifier_ratings", "worst_piv", "steady_peak"]
@@ -65,15 +66,21 @@ class CheckFigures:
     discharge_time_limit : ndarray (R,)
         [s]
     temperature_rise, temperature_rise_limit : ndarray (R,)
-        The transformer build's winding rise and its class allowance (NaN: no build). [K]
+        The transformer build's winding rise at the worst primary tap and mains corner
+        (:func:`optimiser.physics.transformer.corners.worst_corners`) and its class allowance
+        (NaN: no build). [K]
     build_ratio : ndarray (R,)
         Winding build over the window's room (NaN: no build). [-]
     flux_density, flux_density_limit : ndarray (R,)
         Peak flux density at the worst primary tap and mains corner
         (:func:`optimiser.physics.transformer.corners.worst_flux_density`) and the steel's
         limit. [T]
-    flux_corner : sequence of str (R,), optional
-        Which corner that was, for the check's source (where the tier names it).
+    flux_corner, rise_corner : sequence of str (R,), optional
+        Which corner the flux density's and the rise's were, for the checks' sources (where the
+        tier names it).
+    winding_voltage_error : ndarray (R,)
+        The worst secondary's |on-load voltage as built / target - 1|
+        (:func:`optimiser.physics.transformer.rating.worst_winding_error`; NaN: no build). [-]
     hv_rated_current : ndarray (R,)
         The HV winding's rated RMS current. [A]
     has_valve, has_diode, heater_shared : ndarray of bool (R,)
@@ -124,6 +131,7 @@ class CheckFigures:
     build_ratio: np.ndarray
     flux_density: np.ndarray
     flux_density_limit: np.ndarray
+    winding_voltage_error: np.ndarray
     hv_rated_current: np.ndarray
     has_valve: np.ndarray
     has_diode: np.ndarray
@@ -143,6 +151,7 @@ class CheckFigures:
     bleeder_power_rating: np.ndarray
     provenance: Mapping | None = None
     flux_corner: Sequence | None = None
+    rise_corner: Sequence | None = None
 
 
 @dataclass(frozen=True)
@@ -257,10 +266,14 @@ def _fed(fig, k):
     return fig.fed[k]
 
 
-def _flux_source(f, k):
-    corners = f.flux_corner if f.flux_corner is not None else ["the steel grade's data"] * len(
-        f.flux_density)
-    return list(corners)
+def _corner_source(prefix, field):
+    def source(f, k):
+        corners = getattr(f, field)
+        if corners is None:
+            return [prefix] * len(f.hv_voltage)
+        return [prefix if c == "no physical build" else f"{prefix}; worst corner: {c}"
+                for c in corners]
+    return source
 
 
 TABLE = (
@@ -298,16 +311,24 @@ TABLE = (
     CheckDef("diode.average_current", "average current per diode, high mains, full power", "A",
              lambda f, k: _only(f.has_diode, f.high_full["rectifier_average_current"]),
              _rating("diode.i_f_avg"), _diode_source, rectifier=True),
-    CheckDef("transformer.temperature_rise", "winding temperature rise vs the insulation class "
-             "allowance at the stated ambient", "K", lambda f, k: f.temperature_rise,
+    CheckDef("transformer.temperature_rise", "winding temperature rise at the worst tap and "
+             "mains corner vs the insulation class allowance at the stated ambient", "K", lambda f, k: f.temperature_rise,
              lambda f, k: f.temperature_rise_limit,
-             "the physical build: McLyman's surface-dissipation rise; IEC 60085 class limit"),
+             _corner_source("the physical build: McLyman's surface-dissipation rise; IEC 60085 "
+                            "class limit", "rise_corner")),
     CheckDef("transformer.window_fill", "winding build vs the window's room", "-",
              lambda f, k: f.build_ratio, lambda f, k: 1.0,
              "the physical build: layer-by-layer winding build"),
     CheckDef("transformer.flux_density", "peak flux density at the worst tap and mains corner "
              "vs the steel's limit", "T", lambda f, k: f.flux_density,
-             lambda f, k: f.flux_density_limit, _flux_source),
+             lambda f, k: f.flux_density_limit,
+             _corner_source("the steel grade's data", "flux_corner")),
+    CheckDef("transformer.winding_voltage", "worst winding's on-load voltage as built (whole "
+             "turns) vs its target, |V / V_target - 1|", "-",
+             lambda f, k: f.winding_voltage_error,
+             lambda f, k: np.full(len(f.hv_voltage), WINDING_VOLTAGE_TOLERANCE),
+             "the transformer's rating (physics/transformer/rating.py); 1 % tolerance, common "
+             "practice, no source"),
     CheckDef("transformer.hv_rms_current", "HV winding RMS current, high mains, full power", "A",
              lambda f, k: f.high_full["secondary_rms_current"], lambda f, k: f.hv_rated_current,
              "the transformer's rated current in the design"),

@@ -30,7 +30,8 @@ from optimiser.assessment import validity
 from optimiser.parts import catalogue as parts
 from optimiser.assessment import checks as check_table
 from optimiser.physics import ratings, supply, transients
-from optimiser.physics.transformer.corners import worst_flux_by_design
+from optimiser.physics.transformer.corners import worst_corners_by_design
+from optimiser.physics.transformer.rating import winding_error_by_design
 from optimiser.inputs.design import Design, load_design
 from optimiser.assessment.steady_state import Batch, SupplyResult, _groups, _result, figures, solve_batch
 
@@ -337,7 +338,8 @@ def _check_figures(designs, valves, diodes, f, surge, charge_peak, discharge):
 
     built = [d.transformer_design for d in designs]
     cond = [d.conditions for d in designs]
-    flux, flux_corner = worst_flux_by_design(built, [c.mains_high for c in cond])
+    worst = worst_corners_by_design(built, [c.mains_low for c in cond],
+                                    [c.mains_high for c in cond])
     return check_table.CheckFigures(
         node_names=tuple(n.name for n in designs[0].nodes),
         fed=tuple(k > 0 or ns[0].feed is not None for k, ns in enumerate(nodes)),
@@ -352,11 +354,12 @@ def _check_figures(designs, valves, diodes, f, surge, charge_peak, discharge):
         transformer_tolerance=np.array([c.transformer_tolerance for c in cond], float),
         silicon_piv_margin=np.array([c.silicon_piv_margin for c in cond], float),
         discharge_time_limit=np.array([c.discharge_time_limit for c in cond], float),
-        temperature_rise=check_table.attribute_array(built, "temperature_rise"),
+        temperature_rise=worst["temperature_rise"][0], rise_corner=worst["temperature_rise"][1],
         temperature_rise_limit=check_table.attribute_array(built, "temperature_rise_limit"),
         build_ratio=check_table.attribute_array(built, "build_ratio"),
-        flux_density=flux, flux_corner=flux_corner,
+        flux_density=worst["flux_density"][0], flux_corner=worst["flux_density"][1],
         flux_density_limit=check_table.attribute_array(built, "flux_density_limit"),
+        winding_voltage_error=winding_error_by_design(built)[0],
         hv_rated_current=np.array([d.transformer.rated_current or np.nan for d in designs]),
         has_valve=np.array([v is not None for v in valves]),
         has_diode=np.array([d is not None for d in diodes]),

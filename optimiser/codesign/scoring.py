@@ -23,7 +23,7 @@ from optimiser.codesign.encoding import RECTIFIER_COLUMN, Encoding
 from optimiser.codesign.objectives import OBJECTIVES, Objectives
 from optimiser.codesign.options import Options
 from optimiser.parts import catalogue as parts
-from optimiser.physics.transformer.rating import primary_va, va_rating
+from optimiser.physics.transformer.rating import primary_va, va_rating, worst_winding_error
 
 __all__ = ["Scored", "Scoring", "check_names"]
 
@@ -199,6 +199,7 @@ def _frame(designs, lines, F, G, table):
         if td is not None:
             row["transformer.va_rating"] = va_rating(td)  # the one VA definition
             row["transformer.primary_va"] = primary_va(td)
+            row["transformer.winding_voltage_error"] = worst_winding_error(td)[0]
             for key in ("mass", "temperature_rise",
                         "temperature_rise_limit", "build_ratio", "flux_density",
                         "hv_regulation", "total_loss"):

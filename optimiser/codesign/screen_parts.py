@@ -18,13 +18,15 @@ from optimiser.formats.units import round_significant
 from optimiser.inputs.design import Feed
 from optimiser.parts import catalogue as parts
 from optimiser.physics.rectifier import PathElements
-from optimiser.physics.transformer.corners import worst_flux_density
+from optimiser.physics.transformer.corners import worst_corners
+from optimiser.physics.transformer.rating import worst_winding_error
 
 __all__ = ["RectifierOptions", "PartTables", "TransformerCache"]
 
 _TRANSFORMER_FIELDS = ("hv_open_circuit_voltage", "hv_series_resistance",
                        "hv_leakage_inductance", "temperature_rise", "temperature_rise_limit",
-                       "build_ratio", "flux_density", "flux_density_limit", "cost")
+                       "build_ratio", "flux_density", "flux_density_limit",
+                       "winding_voltage_error", "cost")
 _BUILDABLE_FIELDS = ("wire_available", "stack_in_range", "regulation_solvable", "converged")
 
 
@@ -218,12 +220,14 @@ class TransformerCache:
                 ok = np.ones(len(members), bool)
                 for name in _BUILDABLE_FIELDS:
                     ok &= np.asarray(getattr(pop, name), bool)
-                # the flux check reads the worst tap and mains corner, as in the full tier
-                worst_b = worst_flux_density(pop, self.b.conditions.mains_high,
-                                             self.b.options.transformer_data)[0]
-                values = np.column_stack([worst_b if f == "flux_density" else
-                                          np.asarray(getattr(pop, f), float)
-                                          for f in _TRANSFORMER_FIELDS] + [ok])
+                # the flux and rise checks read the worst tap and mains corner, the winding
+                # voltage check the rating's figure, as in the full tier
+                cond = self.b.conditions
+                worst = {f: v[0] for f, v in worst_corners(
+                    pop, cond.mains_low, cond.mains_high, self.b.options.transformer_data).items()}
+                worst["winding_voltage_error"] = worst_winding_error(pop)[0]
+                values = np.column_stack([np.asarray(worst[f] if f in worst else getattr(pop, f),
+                                                     float) for f in _TRANSFORMER_FIELDS] + [ok])
                 for j, m in enumerate(members):
                     self._known[new[m]] = values[j]
         table = np.array([self._known[k] for k in keys])

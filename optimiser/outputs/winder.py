@@ -12,6 +12,7 @@ import math
 from optimiser.formats.units import format_quantity
 from optimiser.physics.transformer.corners import Corners
 from optimiser.physics.transformer.data import TransformerData
+from optimiser.physics.transformer.rating import WINDING_VOLTAGE_TOLERANCE
 
 #: IEC 60127 style fuse current ratings (the R10 series as fuse makers list it). [A]
 FUSE_RATINGS = (0.05, 0.063, 0.08, 0.1, 0.125, 0.16, 0.2, 0.25, 0.315, 0.4, 0.5, 0.63, 0.8, 1.0,
@@ -199,14 +200,17 @@ def fuse_suggestion(design, corners: Corners) -> list:
 
 
 def voltage_notes(design, ratings, turns_either_side) -> list:
-    """Windings whose whole turns miss the target by more than 1 %, with the turns either side."""
+    """Windings whose whole turns miss the target by more than the check
+    ``transformer.winding_voltage`` allows (:data:`WINDING_VOLTAGE_TOLERANCE`, the same rating
+    figure), with the turns either side."""
     notes = []
     for w, r in zip(design.windings[1:], ratings):
-        if abs(r.error) > 0.01:
+        if abs(r.error) > WINDING_VOLTAGE_TOLERANCE:
             (n_low, v_low), (n_high, v_high) = turns_either_side(design, w)
             notes.append(
                 f"{w.name}: {r.voltage:.4g} V at rated load against a target of {r.target:.4g} V "
-                f"({r.error * 100:+.1f} %): whole turns cannot make {r.target:.4g} V on this core "
-                f"(about {v_high / n_high:.3g} V a turn). Nearest: {n_low} turns give "
+                f"({r.error * 100:+.1f} %, over the {WINDING_VOLTAGE_TOLERANCE:.0%} the check "
+                f"transformer.winding_voltage allows): whole turns cannot make {r.target:.4g} V "
+                f"on this core (about {v_high / n_high:.3g} V a turn). Nearest: {n_low} turns give "
                 f"{v_low:.4g} V, {n_high} turns give {v_high:.4g} V (per conducting path)")
     return notes

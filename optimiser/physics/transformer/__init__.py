@@ -14,7 +14,9 @@ Method, in the order it is applied
    with enamel build, turns per layer, layers, interlayer paper and tape between windings.
 4. Mean length of turn of each winding from its place on the bobbin (Steiner's parallel-set formula).
 5. Secondary turns raised so the voltage at rated load meets the target, solved in closed form for
-   the winding resistances of the previous pass, iterated together with 6. to a fixed point.
+   the winding resistances of the previous pass, iterated together with 6. to a fixed point; then
+   whole turns, the lowest-voltage winding's rounded up setting the volts per turn and the
+   primary's and every other winding's turns from it (:mod:`.turns`), and the fixed point again.
 6. Temperature rise by McLyman's surface-dissipation rule, dT = 450 psi^0.826, hot resistance by
    IEC 60028, checked against the IEC 60085 class temperature at the stated ambient.
 7. The equivalent the rectifier sees: R_s = R_path + R_primary (N_path / N_primary)^2, the leakage

@@ -205,21 +205,37 @@ def worst_flux_density(design, mains_high: float = 0.10, data: TransformerData |
     return operating_corners(design, 0.0, mains_high, data).worst("flux_density")
 
 
-def worst_flux_by_design(built, mains_high) -> tuple:
-    """:func:`worst_flux_density` of each of a list of designs (None: no physical build, NaN).
+#: The figures the checks take at the worst corner.
+CHECKED = ("flux_density", "temperature_rise")
+
+
+def worst_corners(design, mains_low: float = 0.10, mains_high: float = 0.10,
+                  data: TransformerData | None = None) -> dict:
+    """The checked figures (:data:`CHECKED`) at their worst corner over every primary connection
+    and low, nominal and high mains, per design, from one :func:`operating_corners`.
 
     Returns
     -------
-    tuple
-        (flux densities (n,) [T], list of check sources naming the worst corner).
+    dict
+        field -> (values (n,), list of the corner labels).
     """
-    values, sources = [], []
-    for t, high in zip(built, mains_high):
-        if t is None:
-            values.append(np.nan)
-            sources.append("no physical build")
-            continue
-        b, where = worst_flux_density(t, high)
-        values.append(float(b[0]))
-        sources.append(f"the steel grade's data; worst corner: {where[0]}")
-    return np.array(values, float), sources
+    corners = operating_corners(design, mains_low, mains_high, data)
+    return {field: corners.worst(field) for field in CHECKED}
+
+
+def worst_corners_by_design(built, mains_low, mains_high) -> dict:
+    """:func:`worst_corners` of each of a list of designs (None: no physical build, NaN).
+
+    Returns
+    -------
+    dict
+        field -> (values (n,), list of the corner labels, "no physical build" where none).
+    """
+    values = {field: [] for field in CHECKED}
+    labels = {field: [] for field in CHECKED}
+    for t, low, high in zip(built, mains_low, mains_high):
+        worst = None if t is None else worst_corners(t, low, high)
+        for field in CHECKED:
+            values[field].append(np.nan if worst is None else float(worst[field][0][0]))
+            labels[field].append("no physical build" if worst is None else worst[field][1][0])
+    return {field: (np.array(values[field], float), labels[field]) for field in CHECKED}

@@ -1,5 +1,6 @@
 """The compiled fixed point of the transformer design, one design (row) at a time: turns,
-wire, layers, geometry, resistance and temperature iterated together, then integer turns.
+wire, layers, geometry, resistance and temperature iterated together (the whole turns are
+chosen between two calls, in :mod:`.population`).
 
 Numba ``njit`` loops over whole populations; the formulas are copies of those in
 :mod:`optimiser.physics.transformer.physics` (``tests/test_transformer.py::
@@ -34,12 +35,12 @@ def _interp(x, xp, fp):
 
 
 @numba.njit(cache=True)
-def _solve_row(j, passes, final_passes, v_low, dual, i_core, i_mag, core_loss, n_eq, n_primary,
+def _solve_row(j, free_passes, total_passes, v_low, dual, i_core, i_mag, core_loss, n_eq, n_primary,
                ratio, v_target, i_rated, paths, current_density, diameters, enamel_nominal,
                enamel_increase, interlayer_limits, interlayer_thickness, lay_factor, bulge_factor,
                winding_width, order, interwinding, screen_thickness, outer_wrap, former_width,
-               former_depth, former_offset, a, stack, ambient, temperature_cap, out_w, out_wire,
-               out_n, out_ok):
+               former_depth, former_offset, a, stack, ambient, temperature0, temperature_cap, out_w,
+               out_wire, out_n, out_ok):
     """One row of :func:`_solve_kernel` (a function of its own, so that the threads of the
     loop over rows share nothing but the arrays each row writes)."""
     S, n = v_target.shape
@@ -66,15 +67,10 @@ def _solve_row(j, passes, final_passes, v_low, dual, i_core, i_mag, core_loss, n
     loss_each = np.empty(W)
     index = np.empty(W, np.int64)
     r = ratio[:, j].copy()
-    temperature = ambient
-    previous = ambient
+    temperature = temperature0[j]
+    previous = temperature0[j]
     solvable = True
-    total_passes = passes + final_passes + 1
     for step in range(total_passes):
-        if step == passes:  # integer secondary turns from here on (none if not wound)
-            for s in range(S):
-                if v_target[s, j] > 0.0:
-                    r[s] = max(np.rint(r[s] * n_eq[j]), 1.0) / n_eq[j]
         # ---- one pass (see the module's method)
         in_phase = i_core[j]
         loaded = i_core[j]
@@ -153,7 +149,7 @@ def _solve_row(j, passes, final_passes, v_low, dual, i_core, i_mag, core_loss, n
         psi = (copper + core_loss[j]) / (surface * 1e4)
         rise = 450.0 * max(psi, 0.0) ** 0.826
         # ---- after the pass
-        if step < passes:
+        if step < free_passes:
             solvable = _regulated_ratios_of(r, r_path, v_target[:, j], i_rated[:, j],
                                             v_low, i_core[j])
         if step < total_passes - 1:
@@ -193,19 +189,21 @@ def _solve_row(j, passes, final_passes, v_low, dual, i_core, i_mag, core_loss, n
 
 
 @numba.njit(cache=True, parallel=True)
-def _solve_kernel(passes, final_passes, v_low, dual, i_core, i_mag, core_loss, n_eq, n_primary,
+def _solve_kernel(free_passes, total_passes, v_low, dual, i_core, i_mag, core_loss, n_eq, n_primary,
                   ratio, v_target, i_rated, paths, current_density, diameters, enamel_nominal,
                   enamel_increase, interlayer_limits, interlayer_thickness, lay_factor,
                   bulge_factor, winding_width, order, interwinding, screen_thickness,
                   outer_wrap, former_width, former_depth, former_offset, a, stack, ambient,
-                  temperature_cap, out_w, out_wire, out_n, out_ok):
+                  temperature0, temperature_cap, out_w, out_wire, out_n, out_ok):
     """The fixed point of :func:`_solve`, one design (column) at a time, compiled.
 
-    Each pass chooses the wire (the smallest offered size for the current density), lays the
-    windings out layer by layer in their order on the bobbin, and computes resistances, losses
-    and the temperature rise (McLyman) for the current turns ratios and winding temperature; the
-    ratios are then re-solved for the rated loaded voltages (:func:`_regulated_ratios_of`),
-    integer secondary turns taken, and the temperature iterated to its fixed point.
+    Each of ``total_passes`` passes chooses the wire (the smallest offered size for the current
+    density), lays the windings out layer by layer in their order on the bobbin, and computes
+    resistances, losses and the temperature rise (McLyman) for the current turns ratios and
+    winding temperature (starting from ``temperature0``); after each of the first
+    ``free_passes`` the ratios are re-solved for the rated loaded voltages
+    (:func:`_regulated_ratios_of`), after the others they are kept (whole turns), and the
+    temperature is iterated to its fixed point. The last pass does not move the temperature.
 
     Outputs (filled): ``out_w`` (K, W, n) per-winding figures in the order of
     :data:`_W_FIELDS`; ``out_wire`` (W, n) wire indices; ``out_n`` (K, n) per-design figures
@@ -214,12 +212,12 @@ def _solve_kernel(passes, final_passes, v_low, dual, i_core, i_mag, core_loss, n
     """
     n = v_target.shape[1]
     for j in numba.prange(n):  # designs are independent: threads split them
-        _solve_row(j, passes, final_passes, v_low, dual, i_core, i_mag, core_loss, n_eq, n_primary,
+        _solve_row(j, free_passes, total_passes, v_low, dual, i_core, i_mag, core_loss, n_eq, n_primary,
                    ratio, v_target, i_rated, paths, current_density, diameters, enamel_nominal,
                    enamel_increase, interlayer_limits, interlayer_thickness, lay_factor,
                    bulge_factor, winding_width, order, interwinding, screen_thickness, outer_wrap,
-                   former_width, former_depth, former_offset, a, stack, ambient, temperature_cap,
-                   out_w, out_wire, out_n, out_ok)
+                   former_width, former_depth, former_offset, a, stack, ambient, temperature0,
+                   temperature_cap, out_w, out_wire, out_n, out_ok)
 
 
 @numba.njit(cache=True)

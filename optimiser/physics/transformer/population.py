@@ -34,6 +34,7 @@ from optimiser.physics.transformer.figures import (  # noqa: F401 (the package's
     WindingPopulation,
 )
 from optimiser.physics.transformer.kernel import _solve_kernel
+from optimiser.physics.transformer.turns import whole_turns
 from optimiser.physics.transformer.preparation import (  # noqa: F401 (read by inputs.build)
     _RESERVED_NAMES,
     _Setup,
@@ -47,6 +48,9 @@ from optimiser.physics.transformer.preparation import (  # noqa: F401 (read by i
 
 _FIXED_POINT_PASSES = 14
 _FINAL_PASSES = 8
+#: Rounds of whole turns: the first chooses them, the second re-sets the volts per turn for the
+#: resistances as moved by the first's turns (the lowest winding's turns held).
+_TURNS_ROUNDS = 2
 _TARGET_BISECTIONS = 12
 _TEMPERATURE_CAP = 1000.0  # [degC]
 
@@ -58,15 +62,13 @@ _N_FIELDS = ("i_primary", "total_build", "e_primary", "copper_loss", "surface", 
              "temperature", "previous")
 
 
-def _solve(setup: _Setup, current_density):
-    """Fixed point of turns, wire, geometry, resistance and temperature; then integer turns
-    (:func:`_solve_kernel`)."""
-    ideal = turns_for_voltage(setup.taps[:, None], setup.frequency, setup.b_target, setup.core_area)
-    tap_turns = np.maximum(np.rint(ideal), 1.0)
+def _kernel(setup: _Setup, current_density, tap_turns, ratio, free_passes, total_passes,
+            temperature0):
+    """One call of :func:`_solve_kernel` for the primary turns ``tap_turns`` (T, n) and the
+    secondary turns ratios ``ratio`` (S, n) (re-solved in place during the free passes)."""
     n_eq = tap_turns[0]
     n_primary = 2.0 * n_eq if setup.dual else tap_turns[-1]
     iron = _iron(setup, n_eq)
-    ratio = np.ascontiguousarray(setup.v_target / setup.taps[0], dtype=float)
     S, n = ratio.shape
     W = S + 1
     practice = setup.data.wire.winding_practice
@@ -78,7 +80,7 @@ def _solve(setup: _Setup, current_density):
     out_ok = np.empty((3, n), np.bool_)
     f64 = lambda x: np.ascontiguousarray(np.broadcast_to(np.asarray(x, float), (n,)))  # noqa: E731
     _solve_kernel(
-        _FIXED_POINT_PASSES, _FINAL_PASSES, float(setup.taps[0]), bool(setup.dual),
+        free_passes, total_passes, float(setup.taps[0]), bool(setup.dual),
         f64(iron[4]), f64(iron[3]), f64(iron[2]), f64(n_eq), f64(n_primary), ratio,
         np.ascontiguousarray(setup.v_target, float), np.ascontiguousarray(setup.i_rated, float),
         np.ascontiguousarray(np.broadcast_to(setup.paths, (S, n)), float),
@@ -91,21 +93,49 @@ def _solve(setup: _Setup, current_density):
         np.array(setup.order, np.int64), float(setup.interwinding),
         float(setup.screen_thickness), float(setup.outer_wrap), f64(setup.former_width),
         f64(setup.former_depth), float(setup.former_offset), f64(setup.a), f64(setup.stack),
-        float(setup.ambient), _TEMPERATURE_CAP, out_w, out_wire, out_n, out_ok)
+        float(setup.ambient), f64(temperature0), _TEMPERATURE_CAP, out_w, out_wire, out_n,
+        out_ok)
     state = {name: out_w[k] for k, name in enumerate(_W_FIELDS)}
     state.update({name: out_n[k] for k, name in enumerate(_N_FIELDS)})
+    state.update(wire_index=out_wire, available=out_ok[0], traverse_ok=out_ok[1],
+                 solvable=out_ok[2], ratio=ratio, tap_turns=tap_turns, iron=iron)
+    return state
+
+
+def _solve(setup: _Setup, current_density):
+    """Fixed point of turns, wire, geometry, resistance and temperature with free turns ratios;
+    then whole turns, the lowest-voltage winding setting the volts per turn
+    (:func:`.turns.whole_turns`), and the fixed point again with those turns."""
+    ideal = turns_for_voltage(setup.taps[:, None], setup.frequency, setup.b_target, setup.core_area)
+    first_taps = np.maximum(np.rint(ideal), 1.0)
+    ratio = np.ascontiguousarray(setup.v_target / setup.taps[0], dtype=float)
+    free = _kernel(setup, current_density, first_taps, ratio, _FIXED_POINT_PASSES,
+                   _FIXED_POINT_PASSES + 1, np.full(setup.n, setup.ambient))
+    n_p0 = first_taps[0]
+    wound = setup.v_target > 0
+    hold = None
+    state, path_turns = free, free["ratio"] * n_p0  # the free pass's turns (not whole)
+    primary_turns = n_p0
+    for _ in range(_TURNS_ROUNDS):
+        # each winding's own drop per turn at rated current, and the primary's EMF, of the last
+        # pass (the EMF hardly moves with the primary's turns: R_p grows as the reflected
+        # current falls); held to at most 100 % compensation, as the free pass's ratios are,
+        # so that the turns of a design whose drops no ratio can make up stay finite
+        emf = np.maximum(state["e_primary"], 0.5 * setup.taps[0])
+        drop = np.where(wound, setup.i_rated * state["r_path"][1:]
+                        / np.where(wound, path_turns, 1.0), 0.0)
+        drop = np.minimum(drop, 0.5 * emf / primary_turns)
+        secondary, n_eq, _, hold = whole_turns(setup.v_target, drop, emf, primary_turns,
+                                               hold=hold, least_primary=n_p0)
+        tap_turns = np.vstack([n_eq] + [np.maximum(np.rint(n_eq * v / setup.taps[0]), 1.0)
+                                        for v in setup.taps[1:]])
+        ratio = np.ascontiguousarray(secondary / n_eq, dtype=float)
+        state = _kernel(setup, current_density, tap_turns, ratio, 0, _FINAL_PASSES + 1,
+                        state["temperature"])
+        path_turns, primary_turns = secondary, n_eq
     temperature, previous = state.pop("temperature"), state.pop("previous")
-    state.update(
-        wire_index=out_wire,
-        available=out_ok[0],
-        traverse_ok=out_ok[1],
-        ratio=ratio,
-        tap_turns=tap_turns,
-        iron=iron,
-        temperature=temperature,
-        solvable=out_ok[2],
-        converged=np.abs(temperature - previous) < 0.05,
-    )
+    state.update(temperature=temperature, solvable=free["solvable"],
+                 converged=np.abs(temperature - previous) < 0.05)
     return state
 
 

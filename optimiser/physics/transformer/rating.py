@@ -14,6 +14,9 @@ Definitions
   paths (both halves of a centre-tapped HV winding count, as the trade rates it).
 - The **primary VA** is the lowest primary (tap) voltage x the primary RMS current at rated load;
   it exceeds the VA rating by the losses and the magnetising current.
+- A winding's **voltage error** is |rated voltage as built / target - 1|; the design's is the worst
+  winding's (:func:`worst_winding_error`), held within :data:`WINDING_VOLTAGE_TOLERANCE` by the
+  check ``transformer.winding_voltage`` and named on the order sheet where it is not.
 """
 
 from __future__ import annotations
@@ -22,6 +25,10 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
+
+#: Each winding's on-load voltage as built within this fraction of its target (the check's limit
+#: and the order sheet's warning; common practice, no source).
+WINDING_VOLTAGE_TOLERANCE = 0.01
 
 
 @dataclass(frozen=True)
@@ -70,6 +77,45 @@ def winding_ratings(design) -> list[WindingRating]:
                                  conv(np.asarray(w.rms_current, float)), w.conducting_paths,
                                  conv(va)))
     return out
+
+
+def worst_winding_error(design):
+    """The worst secondary's |rated voltage as built / target - 1| and its name, per design.
+
+    Returns
+    -------
+    tuple
+        (error [-], name): floats and str for one design, arrays (n,) for a population; 0 and
+        "" where no secondary is wound.
+    """
+    ratings = winding_ratings(design)
+    if not ratings:
+        return (0.0, "") if np.ndim(design.primary_rms_current) == 0 else (
+            np.zeros(np.shape(design.primary_rms_current)), np.array([""] * np.size(
+                design.primary_rms_current)))
+    errors = np.abs(np.stack([np.asarray(r.error, float) for r in ratings]))
+    k = np.argmax(errors, axis=0)
+    names = np.array([r.name for r in ratings])[k]
+    worst = np.take_along_axis(errors, np.expand_dims(k, 0), axis=0)[0]
+    if errors.ndim == 1:
+        return float(worst), str(names)
+    return worst, names
+
+
+def winding_error_by_design(built) -> tuple:
+    """:func:`worst_winding_error` of each of a list of designs (None: no physical build, NaN).
+
+    Returns
+    -------
+    tuple
+        (errors (n,) [-], list of winding names, "" where there is none).
+    """
+    values, names = [], []
+    for t in built:
+        error, name = (np.nan, "") if t is None else worst_winding_error(t)
+        values.append(error)
+        names.append(name)
+    return np.array(values, float), names
 
 
 def va_rating(design):
