@@ -449,6 +449,13 @@ def _has_rating(series, rated_voltage):
 
 
 def _life(designs, valves, f):
+    """Life of the parts that wear, per design: each electrolytic at its worst core temperature
+    (the highest ripple current over the corners), the valve rectifier by its cathode loading at
+    high mains and full power, and the shortest of them on one scale of hours
+    (:mod:`optimiser.physics.life`)."""
+    from optimiser.physics import life as wear
+
+    ripple = np.maximum.reduce([f[c]["capacitor_rms_current"] for c in CORNERS])
     out = []
     for j, d in enumerate(designs):
         caps = []
@@ -459,8 +466,7 @@ def _life(designs, valves, f):
             if node.rated_voltage is not None and _has_rating(series, node.rated_voltage):
                 life, core = ratings.capacitor_life(
                     series.rated_life, series.rated_temperature, d.conditions.ambient,
-                    f["nominal_full"]["capacitor_rms_current"][j, k],
-                    series.ripple_rating(node.capacitance, node.rated_voltage),
+                    ripple[j, k], series.ripple_rating(node.capacitance, node.rated_voltage),
                     d.conditions.ripple_self_heating)
                 entry.update(core_temperature=float(core), life_hours=float(life / 3600.0))
             else:
@@ -469,14 +475,21 @@ def _life(designs, valves, f):
         v = valves[j]
         valve = None
         if v is not None:
-            loading, rel = ratings.valve_cathode_loading(
-                2 * f["nominal_full"]["rectifier_average_current"][j], v.max_dc_current)
+            current = 2 * f["high_full"]["rectifier_average_current"][j]
+            loading, rel = ratings.valve_cathode_loading(current, v.max_dc_current)
             valve = {"name": v.name, "cathode_loading": float(loading),
-                     "relative_life": float(rel)}
+                     "relative_life": float(rel),
+                     "life_hours": float(wear.valve_life_hours(current, v.max_dc_current))}
+        hours = [c["life_hours"] for c in caps if c["life_hours"] is not None]
+        if valve is not None:
+            hours.append(valve["life_hours"])
         out.append({"capacitors": caps, "rectifier_valve": valve,
-                    "source": "capacitor: 10 degC rule with ripple self-heating (makers' "
-                              "application notes; common practice); valve: inverse cathode "
-                              "loading (common practice, no source)"})
+                    "shortest_hours": float(min(hours)) if hours else None,
+                    "source": "capacitor: 10 degC rule at the worst core temperature (ripple "
+                              "self-heating; makers' application notes; common practice); "
+                              "valve: life at rating "
+                              f"({wear.VALVE_LIFE_AT_RATING:g} h, common practice, no source) "
+                              "over its cathode loading at high mains, full power"})
     return out
 
 
@@ -592,6 +605,8 @@ def _row(a: Assessment) -> dict:
                 row[f"{n['name']}.{key}"] = value
     for node in a.steady.nodes:
         row[f"{node.name}.ripple_pp"] = node.ripple_pp
+    row["shortest_life"] = (np.nan if a.life.get("shortest_hours") is None
+                            else a.life["shortest_hours"])  # [h]
     return row
 
 

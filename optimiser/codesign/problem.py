@@ -10,10 +10,11 @@ objectives and constraints come from a screening tier, :mod:`optimiser.codesign.
 faster; :func:`optimise` assesses what the search kept in full, and only that is reported. The
 result is scored:
 
-- objectives ``F`` = [cost, regulation, rectifier_stress], all minimised: cost in cost units;
-  regulation the distance of the static sag from its target (or the sag itself when the spec
-  sets no target), as a fraction; rectifier stress the worst actual-to-rated ratio over the
-  rectifier's ratings;
+- objectives ``F``: the spec's 2-4 named objectives (default cost, regulation or sag_error,
+  rectifier_stress), each defined once in :mod:`optimiser.codesign.objective_table`: cost in
+  cost units, regulation the static drop at the sag node, sag_error its distance from the
+  target, rectifier stress the worst actual-to-rated ratio of the rectifier's ratings, life the
+  shortest part life;
 - constraints ``G`` (feasible where every column is <= 0): each node's DC voltage inside its
   window, ripple inside its limit, the sag inside its tolerance (and attack/recovery inside their
   windows), the transformer buildable, each capacitor value made at its rating, and every check
@@ -53,6 +54,7 @@ from optimiser.inputs.design import (
     Rectifier,
 )
 from optimiser.codesign.nsga import Variable
+from optimiser.codesign import objective_table
 from optimiser.inputs.spec import RECTIFIER_HEATER, Spec
 from optimiser.inputs.build import BiasWindingBlock, HeaterWindingBlock, HvWindingBlock, TransformerBuild
 from optimiser.physics.transformer import AuxiliaryWinding, design_population, load_transformer_data
@@ -209,10 +211,10 @@ class CoDesign:
     spec : Spec
     """
 
-    objective_names = OBJECTIVES
-
     def __init__(self, spec: Spec):
         self.spec = spec
+        #: the objectives searched, in F's column order (:mod:`objective_table`)
+        self.objective_names = objective_table.names_for(spec)
         c = spec.choices
         t = spec.transformer
         self.node_names = [n.name for n in spec.nodes]
@@ -698,23 +700,34 @@ class CoDesign:
             figures[f"{what}_time"] = columns(f"{sag_name}.{what}_time").astype(float)
         ratios = {name: table.ratios[name].to_numpy(float) for name in table.ratios.columns}
         buildable = np.array([_buildable(d) for d in designs])
-        regulation, G = self.constraint_values(figures, buildable, self._made(designs), ratios)
+        G = self.constraint_values(figures, buildable, self._made(designs), ratios)
 
         lines = [self.parts_list(d) for d in designs]
         cost = np.array([sum(line.cost for line in ls) for ls in lines])
         stress = fr["rectifier_stress"].to_numpy(float)
-        F = self.objective_values(cost, regulation, stress)
-        frame = self._frame(designs, lines, F, G, table)
+        life = np.nanmin(np.where(np.isnan(columns("shortest_life")), np.inf,
+                                  columns("shortest_life")), axis=1)
+        figs = self.objective_figures(cost, figures["static_drop"], stress,
+                                      np.where(np.isinf(life), np.nan, life))
+        for what in ("attack_time", "recovery_time"):
+            t = figures[what]
+            figs[what] = np.where(np.isnan(t).all(axis=1), np.nan,
+                                  np.nanmax(np.where(np.isnan(t), -np.inf, t), axis=1))
+        F = self.objective_values(figs)
+        frame = self._frame(designs, lines, figs, G, table)
         return Scored(designs=list(designs), frame=frame, F=F, G=G, table=table)
 
-    @staticmethod
-    def objective_values(cost, regulation, stress):
-        """F (B, 3) from the objectives' figures; a figure that failed counts as very bad."""
-        F = np.column_stack([cost, regulation, stress])
-        return np.where(np.isfinite(F), F, 1e6)
+    def objective_figures(self, cost, drop, stress, life):
+        """Every named objective's figure per design: {name: (B,)}
+        (:func:`optimiser.codesign.objective_table.figures_of`)."""
+        return objective_table.figures_of(self.spec, cost, drop, stress, life)
+
+    def objective_values(self, figures):
+        """F (B, n_obj) of the searched objectives; a figure that failed counts as very bad."""
+        return objective_table.search_values(self.objective_names, figures)
 
     def constraint_values(self, figures, buildable, made, ratios):
-        """(regulation (B,), G (B, M)) from the figures of designs.
+        """G (B, M) from the figures of designs.
 
         Parameters
         ----------
@@ -750,7 +763,6 @@ class CoDesign:
         drop = figures["static_drop"]
         if s.sag is not None:
             off = np.abs(drop - s.sag.target)
-            regulation = worst(off)
             g.append(worst((off - s.sag.tolerance) / s.sag.tolerance))
             for what in ("attack", "recovery"):
                 window = getattr(s.sag, what)
@@ -761,8 +773,6 @@ class CoDesign:
                     g.append(worst((window.min - t) / window.min))
                 if window.max is not None:
                     g.append(worst((t - window.max) / window.max))
-        else:
-            regulation = worst(drop)
         g.append(np.where(buildable, 0.0, 1.0))
         for k in range(len(s.nodes)):
             g.append(np.where(made[:, k], -1.0, 1.0))
@@ -776,7 +786,7 @@ class CoDesign:
         else:
             g.append(np.full(count, -1.0))
         G = np.column_stack(g)
-        return regulation, np.where(np.isnan(G), 1e6, G)  # a failed figure fails its constraint
+        return np.where(np.isnan(G), 1e6, G)  # a failed figure fails its constraint
 
     def _made(self, designs):
         out = np.zeros((len(designs), len(self.node_names)), bool)
@@ -808,7 +818,7 @@ class CoDesign:
             out.append(line)
         return out
 
-    def _frame(self, designs, lines, F, G, table):
+    def _frame(self, designs, lines, figs, G, table):
         rows = []
         for d, ls in zip(designs, lines):
             t = d.transformer
@@ -848,9 +858,11 @@ class CoDesign:
                     row[f"transformer.{key}"] = float(getattr(td, key))
             rows.append(row)
         mine = pd.DataFrame(rows)
-        for i, name in enumerate(OBJECTIVES):
-            mine.insert(1 + i, name, F[:, i])
-        mine.insert(1 + len(OBJECTIVES), "feasible", np.all(G <= 0, axis=1))
+        # every objective's figure, whichever are searched, and the sag times (worst position)
+        named = list(objective_table.OBJECTIVES) + ["attack_time", "recovery_time"]
+        for i, name in enumerate(named):
+            mine.insert(1 + i, name, figs[name])
+        mine.insert(1 + len(named), "feasible", np.all(G <= 0, axis=1))
         assessed = table.frame.drop(columns=["rectifier_stress"], errors="ignore")
         checks = table.ratios.add_prefix("check: ")
         return pd.concat([mine, assessed.reset_index(drop=True),
@@ -939,14 +951,15 @@ class Optimisation:
                 for r in rows]
 
 
-def reported_front(F, feasible, resolution):
+def reported_front(F, feasible, resolution, names=OBJECTIVES):
     """Rows of the feasible, non-dominated designs, telling apart only objective differences
-    larger than the spec's resolution (of designs that tie, the cheapest is kept); by cost."""
+    larger than the spec's resolution (of designs that tie, the cheapest is kept); by cost.
+    ``names``: the objectives of F's columns."""
     from optimiser.codesign import nsga as search
 
-    steps = np.array([resolution.cost, resolution.regulation, resolution.rectifier_stress])
+    steps = objective_table.resolution_steps(names, resolution)
     coarse = np.where(steps > 0, np.round(F / np.where(steps > 0, steps, 1.0)) * steps, F)
-    order = np.lexsort((F[:, 2], F[:, 1], F[:, 0]))
+    order = np.lexsort(F.T[::-1])
     rank = np.empty(len(F), int)
     rank[order] = np.arange(len(F))
     rows = np.flatnonzero(feasible)
@@ -985,7 +998,8 @@ def optimise(spec: Spec, *, population=None, generations=None, seed=None, worker
     kept = np.vstack([result.X, result.archive]) if len(result.archive) else result.X
     candidates = list(dict.fromkeys(binding.decode(kept)))
     scored = binding.score(binding.designs(candidates))
-    front = reported_front(scored.F, scored.feasible, spec.search.resolution)
+    front = reported_front(scored.F, scored.feasible, spec.search.resolution,
+                           binding.objective_names)
     knee = int(front[search.knee(scored.F[front])]) if len(front) else None
     unmet = tuple(Unmet(info, float(best)) for info, best in
                   zip(binding.constraints, scored.G.min(axis=0)) if best > 0)

@@ -372,8 +372,30 @@ class Screen:
         else:
             none = np.full((count, 1), np.nan)
             figures["attack_time"] = figures["recovery_time"] = none
-        regulation, G = b.constraint_values(figures, tr["buildable"], cap["made"], by_design)
-        return b.objective_values(cost, regulation, stress), G, by_design
+        G = b.constraint_values(figures, tr["buildable"], cap["made"], by_design)
+        life = self._life(owner, position, f, cap, count, failed)
+        figs = b.objective_figures(cost, figures["static_drop"], stress, life)
+        return b.objective_values(figs), G, by_design
+
+    def _life(self, owner, position, f, cap, count, failed):
+        """Shortest part life per design [h], as the assessment reckons it
+        (:mod:`optimiser.physics.life`): capacitors at the highest ripple current of the
+        screen's corners, the valve rectifier at high mains, full power; worst position."""
+        from optimiser.physics import life as wear
+
+        cond = self.b.conditions
+        ripple = np.maximum.reduce([f[c]["capacitor_rms_current"] for c, _, _ in CORNERS])
+        lives = []
+        for k, sr in enumerate(self.series):
+            lives.append(wear.capacitor_life_hours(sr.rated_life, sr.rated_temperature,
+                                                   cond.ambient, ripple[:, k],
+                                                   cap["ripple"][owner, k],
+                                                   cond.ripple_self_heating))
+        rated = self.position_rating[("valve", "max_dc_current")][position]
+        lives.append(np.where(self.has_valve[position], wear.valve_life_hours(
+            2 * f["high_full"]["rectifier_average_current"], rated), np.nan))
+        shortest = np.where(failed, np.nan, wear.shortest(*lives))
+        return -_per_design(-shortest, owner, count)
 
     def _sag_times(self, f, stacked, rows):
         """Attack and recovery times (R, N) from the cycle-averaged circuit: each row's
