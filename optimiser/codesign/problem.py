@@ -55,6 +55,7 @@ from optimiser.inputs.design import (
 )
 from optimiser.codesign.nsga import Variable
 from optimiser.codesign import objective_table
+from optimiser.codesign import branches
 from optimiser.inputs.spec import RECTIFIER_HEATER, Spec
 from optimiser.inputs.build import BiasWindingBlock, HeaterWindingBlock, HvWindingBlock, TransformerBuild
 from optimiser.physics.transformer import AuxiliaryWinding, design_population, load_transformer_data
@@ -661,6 +662,11 @@ class CoDesign:
 
         return Screen(self)
 
+    def niche(self, X):
+        """Each row's rectifier branch (:mod:`optimiser.codesign.branches`): the search keeps a
+        front per branch."""
+        return branches.niche_of(self.spec, np.atleast_2d(X)[:, 4])
+
     #: :meth:`evaluate` gives each row the same result in any batch (see :mod:`optimiser.codesign.nsga`).
     batch_independent = True
 
@@ -675,11 +681,13 @@ class CoDesign:
         scored = self.score(self.designs(self.decode(X)))
         return scored.F, scored.G
 
-    def score(self, designs) -> Scored:
-        """Assess, price and score designs (built by :meth:`designs`, or read from files)."""
+    def score(self, designs, dynamics=None) -> Scored:
+        """Assess, price and score designs (built by :meth:`designs`, or read from files);
+        ``dynamics``: run the sag step (default: only where the spec sets its windows)."""
         s = self.spec
         count = len(designs)
-        table = assess_many(designs, dynamics=self.needs_sag_dynamics)
+        table = assess_many(designs, dynamics=self.needs_sag_dynamics if dynamics is None
+                            else dynamics)
         fr = table.frame
 
         def columns(name):
@@ -825,6 +833,7 @@ class CoDesign:
             td = d.transformer_design
             row = {
                 "rectifier": _rectifier_label(d.rectifier),
+                "branch": branches.branch_key(d.rectifier),
                 "secondary_voltage": t.build.hv.voltage if t.build is not None else np.nan,
                 "hv_current_rating": t.rated_current,
                 "core": t.build.core if t.build is not None else None,
@@ -936,6 +945,16 @@ class Optimisation:
     front: np.ndarray
     knee: int | None
     unmet: tuple
+    #: {branch key: rows of ``scored`` on that branch's front} for every branch of the spec
+    branch_fronts: dict = None
+
+    @property
+    def listed(self) -> np.ndarray:
+        """Rows of the union of the branch fronts, by cost: what the results list."""
+        rows = np.unique(np.concatenate([np.asarray(r, int) for r in
+                                         (self.branch_fronts or {"": self.front}).values()]
+                                        + [np.asarray(self.front, int)]))
+        return rows[np.argsort(self.scored.F[rows, 0], kind="stable")]
 
     @property
     def found(self) -> bool:
@@ -998,10 +1017,16 @@ def optimise(spec: Spec, *, population=None, generations=None, seed=None, worker
     kept = np.vstack([result.X, result.archive]) if len(result.archive) else result.X
     candidates = list(dict.fromkeys(binding.decode(kept)))
     scored = binding.score(binding.designs(candidates))
-    front = reported_front(scored.F, scored.feasible, spec.search.resolution,
-                           binding.objective_names)
+    front_of = lambda F, mask: reported_front(F, mask, spec.search.resolution,  # noqa: E731
+                                              binding.objective_names)
+    keys = scored.frame["branch"].to_numpy(object)
+    fronts = branches.branch_fronts(scored.F, scored.feasible, keys, front_of)
+    fronts = {b.key: fronts.get(b.key, np.array([], int)) for b in branches.branches_of(spec)}
+    front = branches.union_front(scored.F, fronts, front_of)
+    scored = branches.with_dynamics(binding, scored, np.unique(np.concatenate(
+        [front] + list(fronts.values()))))
     knee = int(front[search.knee(scored.F[front])]) if len(front) else None
     unmet = tuple(Unmet(info, float(best)) for info, best in
                   zip(binding.constraints, scored.G.min(axis=0)) if best > 0)
     return Optimisation(spec=spec, binding=binding, search=result, scored=scored, front=front,
-                        knee=knee, unmet=unmet)
+                        knee=knee, unmet=unmet, branch_fronts=fronts)
