@@ -267,7 +267,9 @@ def _assess_group(designs, detail, dynamics=True):
             checks.append(ratings.Check(name=c.name, what=c.what, unit=c.unit,
                                         value=float(c.value[j]), limit=float(c.limit[j]),
                                         ratio=float(ratio), passed=bool(ratio <= 1.0),
-                                        source=c.source[j]))
+                                        source=c.source[j],
+                                        derating=float(np.broadcast_to(c.derating,
+                                                                       c.ratio.shape)[j])))
         idle_dc = f["nominal_idle"]["dc_voltage"][j]
         full_dc = f["nominal_full"]["dc_voltage"][j]
         nodes = []
@@ -404,8 +406,11 @@ def _check_columns(designs, valves, diodes, solved, surge, charge_peak, steady_p
         series = [parts.find_part("capacitor", n.capacitor_series or d.conditions.capacitor_series)
                   for n, d in zip(nodes, designs)]
         csrc = [f"the design's rated voltage; {s.name}: {s.provenance}" for s in series]
+        derate = np.array([d.conditions.capacitor_voltage_derating for d in designs])
         cols.append(col(f"capacitor.{name}.voltage", "highest voltage: valves cold or idle, "
-                        "high mains", "V", np.maximum(steady_peak[:, k], 0), rated, csrc))
+                        f"high mains, vs {100 * derate[0]:.0f} % of the rating (derating: common "
+                        "practice, no source)", "V", np.maximum(steady_peak[:, k], 0), rated,
+                        csrc, derating=derate))
         surge_v = np.array([s.rating(r).surge if np.isfinite(r) and _has_rating(s, r) else np.nan
                             for s, r in zip(series, rated)])
         cols.append(col(f"capacitor.{name}.surge_voltage", "charge-up overshoot at switch-on vs "
@@ -422,16 +427,27 @@ def _check_columns(designs, valves, diodes, solved, surge, charge_peak, steady_p
                 2 * hf["rectifier_average_current"]
             power = np.array([fd.resistance for fd in feeds]) * i_rms ** 2
             is_choke = np.array([fd.inductance > 0 for fd in feeds])
+            pd_ = np.array([d.conditions.resistor_power_derating for d in designs])
             cols.append(col(f"resistor.{name}.dissipation", "dropping resistor dissipation, high "
-                            "mains, full power", "W", np.where(is_choke, np.nan, power),
-                            _attr(feeds, "power_rating"), "the design's power rating"))
+                            f"mains, full power, vs {100 * pd_[0]:.0f} % of the rating (derating: "
+                            "common practice, no source)", "W",
+                            np.where(is_choke, np.nan, power), _attr(feeds, "power_rating"),
+                            "the design's power rating", derating=pd_))
             cols.append(col(f"choke.{name}.current", "choke DC current, high mains, full power",
                             "A", np.where(is_choke, i_dc, np.nan),
                             _attr(feeds, "current_rating"), "the design's current rating"))
         bleed = np.array([n.bleeder or np.nan for n in nodes])
+        pd_ = np.array([d.conditions.resistor_power_derating for d in designs])
         cols.append(col(f"bleeder.{name}.dissipation", "bleeder dissipation at the highest "
-                        "voltage", "W", steady_peak[:, k] ** 2 / bleed,
-                        _attr(nodes, "bleeder_power_rating"), "the design's power rating"))
+                        f"voltage vs {100 * pd_[0]:.0f} % of the rating (derating: common practice, "
+                        "no source)", "W", steady_peak[:, k] ** 2 / bleed,
+                        _attr(nodes, "bleeder_power_rating"), "the design's power rating",
+                        derating=pd_))
+        cols.append(col(f"bleeder.{name}.voltage", "bleeder voltage at the highest voltage vs "
+                        "its class's working voltage (the lesser of its rated limit and "
+                        "sqrt(P R))", "V", steady_peak[:, k],
+                        [parts.resistor_working_voltage(n.bleeder_power_rating, n.bleeder)
+                         for n in nodes], "the resistor catalogue's working voltage"))
         limit = np.array([d.conditions.discharge_time_limit for d in designs])
         cols.append(col(f"bleeder.{name}.discharge_time", "time to fall below the safe voltage "
                         "after switch-off (valves drawing nothing)", "s", discharge[:, k], limit,

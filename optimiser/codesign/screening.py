@@ -157,6 +157,7 @@ class Screen:
             self.feed.append(np.array(rows, float).reshape(-1, 5))
         # resistor classes: power and price (by rated power)
         self.class_power = np.array([c.power for c in binding._resistor_classes])
+        self.class_working = np.array([c.max_working_voltage for c in binding._resistor_classes])
         self.class_cost = np.array([bill._resistor_line("", 1.0, p, s.ambient).cost
                                     for p in self.class_power])
         self.bleeder_values = np.sort(parts.e_series(BLEEDER_SERIES, range(2, 8)))
@@ -284,7 +285,7 @@ class Screen:
         r_max = allowed / (c_plus * np.log(crest[:, None] / cond.safe_voltage))
         pick = np.searchsorted(self.bleeder_values, r_max * (1 + 1e-12), side="right") - 1
         bleeder = self.bleeder_values[np.maximum(pick, 0)]
-        bleeder_class = b.resistor_class(crest[:, None] ** 2 / bleeder)
+        bleeder_class = b.resistor_class(crest[:, None] ** 2 / bleeder, crest[:, None])
         bleeder_power = self.class_power[bleeder_class]
 
         cost = (tr["cost"] + self.rectifier_cost[choice["rectifier"]] + cap["cost"].sum(axis=1)
@@ -346,7 +347,7 @@ class Screen:
 
         ratios = self._checks(owner, position, f, tr, cap, choice, crest, surge_i, steady_peak,
                               charge, discharge, bleeder, bleeder_power, feed_power,
-                              feed_current, feed_l, feed_r, c_plus)
+                              feed_current, feed_l, feed_r, c_plus, bleeder_class)
         # per design: worst over positions; a position the screen could not solve fails
         by_design = {name: _per_design(np.where(failed, np.nan, values), owner, count)
                      for name, (values, _) in ratios.items()}
@@ -436,7 +437,7 @@ class Screen:
 
     def _checks(self, owner, position, f, tr, cap, choice, crest, surge_i, steady_peak, charge,
                 discharge, bleeder, bleeder_power, feed_power, feed_current, feed_l, feed_r,
-                c_plus):
+                c_plus, bleeder_class):
         """Check ratios per row (design and position), named as the assessment names them:
         {name: (ratio (R,), counts towards the rectifier stress)}."""
         cond = self.b.conditions
@@ -492,7 +493,8 @@ class Screen:
         for k, name in enumerate(self.b.node_names):
             c = {key: v[owner, k] for key, v in cap.items()}
             out[f"capacitor.{name}.voltage"] = (col(np.maximum(steady_peak[:, k], 0),
-                                                    c["rated"]), False)
+                                                    c["rated"] * cond.capacitor_voltage_derating),
+                                                False)
             out[f"capacitor.{name}.surge_voltage"] = (col(charge[:, k], c["surge"]), False)
             out[f"capacitor.{name}.ripple_current"] = (col(hf["capacitor_rms_current"][:, k],
                                                            c["ripple"]), False)
@@ -500,11 +502,16 @@ class Screen:
                 choke = feed_l[owner, k] > 0
                 power = feed_r[owner, k] * hf["feed_rms_current"][:, k] ** 2
                 out[f"resistor.{name}.dissipation"] = (col(np.where(choke, np.nan, power),
-                                                           feed_power[owner, k]), False)
+                                                           feed_power[owner, k]
+                                                           * cond.resistor_power_derating), False)
                 out[f"choke.{name}.current"] = (col(np.where(choke, np.abs(
                     hf["feed_dc_current"][:, k]), np.nan), feed_current[owner, k]), False)
             out[f"bleeder.{name}.dissipation"] = (col(steady_peak[:, k] ** 2 / bleeder[owner, k],
-                                                      bleeder_power[owner, k]), False)
+                                                      bleeder_power[owner, k]
+                                                      * cond.resistor_power_derating), False)
+            out[f"bleeder.{name}.voltage"] = (col(steady_peak[:, k], np.minimum(
+                self.class_working[bleeder_class[owner, k]],
+                np.sqrt(bleeder_power[owner, k] * bleeder[owner, k]))), False)
             out[f"bleeder.{name}.discharge_time"] = (col(discharge[:, k],
                                                          cond.discharge_time_limit), False)
         # a switchable pair's checks carry their position's name

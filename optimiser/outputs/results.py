@@ -71,6 +71,7 @@ _CONDITION_UNITS = {
     "discharge_time_limit": lambda v: _q(v, "s"), "sag_hold": lambda v: _q(v, "s"),
     "sag_release": lambda v: _q(v, "s"), "safe_voltage": lambda v: _q(v, "V"),
     "capacitor_series": str,
+    "capacitor_voltage_derating": _percent, "resistor_power_derating": _percent,
 }
 
 
@@ -263,14 +264,15 @@ def _sag_text(fr, row, node):
 
 def _check_table(assessment) -> list[str]:
     checks = assessment.checks
-    out = ["| check | worst value | limit | ratio | verdict | limit's source |",
-           "|---|---|---|---|---|---|"]
+    out = ["| check | worst value | limit (derated) | ratio to limit | ratio to rating | verdict "
+           "| limit's source |", "|---|---|---|---|---|---|---|"]
     for c in sorted(checks, key=lambda c: -c.ratio):
         unit = c.unit if c.unit not in ("-",) else ""
         verdict = "pass" if c.passed else "FAIL"
         source = c.source if len(c.source) <= 90 else c.source[:89].rstrip() + "…"
         out.append(f"| {c.name} | {format_quantity(c.value, unit)} | "
-                   f"{format_quantity(c.limit, unit)} | {c.ratio:.3f} | {verdict} | "
+                   f"{format_quantity(c.limit, unit)} | {c.ratio:.3f} | "
+                   f"{getattr(c, 'rating_ratio', c.ratio):.3f} | {verdict} | "
                    f"{source} |")
     return out
 

@@ -49,6 +49,7 @@ from optimiser.formats.schema import (
 )
 
 __all__ = [
+    "resistor_working_voltage",
     "CatalogueError",
     "PartNotFound",
     "MissingRating",
@@ -704,6 +705,17 @@ def _merged(kind: str, files: tuple) -> _Catalogue:
     for path in files:
         _merge(catalogue, path, override=True)
     return catalogue
+
+
+def resistor_working_voltage(power, resistance) -> float:
+    """Working voltage of a resistor of the smallest catalogue class rated for ``power``: the
+    lesser of the class's limiting element voltage and sqrt(P R). [V] (NaN where unknown)."""
+    if power is None or resistance is None:
+        return float("nan")
+    classes = sorted(load_catalogue("resistor").values(), key=lambda p: p.power)
+    fitting = [c for c in classes if c.power >= power * (1 - 1e-9)] or classes[-1:]
+    c = fitting[0]
+    return float(min(c.max_working_voltage, np.sqrt(c.power * resistance)))
 
 
 def load_catalogue(kind: str, extra_files: Iterable = ()) -> dict[str, Part]:
