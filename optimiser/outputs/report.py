@@ -1155,7 +1155,9 @@ def read_front(result_dir) -> Front:
     if not csv.is_file():
         raise ResultsError(f"{root}: no pareto.csv (is this a folder written by "
                            "railwright optimise?)")
-    frame = pd.read_csv(csv)
+    from optimiser.codesign.objective_table import from_csv_frame
+
+    frame = from_csv_frame(pd.read_csv(csv))  # unit headers back to frame names and units
     missing = [c for c in OBJECTIVES if c not in frame.columns]
     if missing:
         raise ResultsError(f"{csv}: missing column(s) {', '.join(missing)}; the front needs "
