@@ -29,6 +29,15 @@ _COLUMNS = (("branch", "branch"), ("feasible", "meets the spec"), ("designs", "o
             ("rectifier_stress", "rectifier stress"), ("binding_constraints", "what binds"))
 
 
+def _figure(width, height):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=(width, height), dpi=110)
+    FigureCanvasAgg(fig)
+    return fig
+
+
 def branch_table(opt, idmap):
     """Rows of ``branches.csv`` (see :func:`optimiser.codesign.branches.branch_rows`)."""
     return branch_rows(opt, idmap)
@@ -62,8 +71,6 @@ def _style(keys):
 def plot_front_branches(opt, path, idmap):
     """The listed designs (union of the branch fronts) in the pairwise projections of the
     searched objectives, each point's branch marked."""
-    from optimiser.outputs.results import _figure
-
     fr = opt.scored.frame
     names = list(opt.binding.objective_names)
     listed = np.asarray(opt.listed, int)
@@ -112,8 +119,6 @@ def plot_front_branches(opt, path, idmap):
 def plot_sag_life(opt, path, idmap):
     """Sag depth against the shortest part life across the union of the branch fronts,
     branches marked: what a looser supply costs in capacitor and valve life."""
-    from optimiser.outputs.results import _figure
-
     fr = opt.scored.frame
     listed = np.asarray(opt.listed, int)
     keys = fr["branch"].to_numpy(object)
