@@ -6,6 +6,8 @@ A *definition* is any object with
 - ``objective_names`` and ``constraint_names``: sequences of str,
 - ``evaluate(X) -> (F, G)``: objectives (B, n_obj) to minimise and constraints (B, n_constr),
   feasible where every ``G <= 0``, for a whole population at once,
+- optionally ``shown(name, search value) -> str``: an objective's best value as the progress
+  line gives it,
 - optionally ``niche(X) -> labels (B,)``: rows with different labels never compete for
   survival (:class:`NicheSurvival`), so that each niche keeps its own front.
 
@@ -366,7 +368,7 @@ def knee(F):
     return int(np.argmax(distance))
 
 
-def _make_callback(objective_names, history, bar):
+def _make_callback(objective_names, history, bar, shown=None):
     from pymoo.core.callback import Callback
 
     class _Watch(Callback):
@@ -383,7 +385,8 @@ def _make_callback(objective_names, history, bar):
             if bar is not None:
                 post = {"feasible": entry["feasible"]}
                 if feasible.any():
-                    post.update({k: f"{v:.4g}" for k, v in best.items()})
+                    post.update({k: f"{v:.4g}" if shown is None else shown(k, v)
+                                 for k, v in best.items()})
                 else:
                     post["least violation"] = f"{entry['least_violation']:.3g}"
                 bar.set_postfix(post, refresh=False)
@@ -454,7 +457,8 @@ def run(definition, population=100, generations=100, seed=1, workers=1, progress
 
             bar = tqdm(total=generations, desc="search", unit="gen", file=sys.stderr,
                        leave=False, dynamic_ncols=True)
-        callback = _make_callback(list(definition.objective_names), history, bar)
+        callback = _make_callback(list(definition.objective_names), history, bar,
+                                  getattr(definition, "shown", None))
         res = minimize(problem, algorithm, ("n_gen", generations), seed=seed, callback=callback,
                        verbose=False, copy_algorithm=False)
     finally:

@@ -27,7 +27,7 @@ from dataclasses import dataclass
 import numpy as np
 
 __all__ = ["Objective", "OBJECTIVES", "FIGURE_HEADERS", "names_for", "search_values",
-           "resolution_steps", "csv_frame", "from_csv_frame", "FAILED"]
+           "resolution_steps", "csv_frame", "from_csv_frame", "shown", "FAILED"]
 
 #: Search value of an objective whose figure could not be computed (counts as very bad).
 FAILED = 1e6
@@ -60,6 +60,11 @@ class Objective:
     label: str
     best: str
 
+    @property
+    def unit(self) -> str:
+        """The unit of its ``pareto.csv`` column (from the header), e.g. ``"%"``."""
+        return self.header.split("[", 1)[1].rstrip("]") if "[" in self.header else ""
+
     def search_value(self, figure):
         """The minimised value of a figure (life is searched as -log10 of its hours)."""
         x = np.asarray(figure, float)
@@ -86,6 +91,14 @@ OBJECTIVES = {o.name: o for o in (
 FIGURE_HEADERS = {"static_drop": ("sag.static_drop [%]", 100.0),
                   "attack_time": ("sag.attack_time [s]", 1.0),
                   "recovery_time": ("sag.recovery_time [s]", 1.0)}
+
+
+def shown(name, search_value) -> str:
+    """A search value as people read it, in its pareto.csv unit (the progress line)."""
+    o = OBJECTIVES[name]
+    figure = 10.0 ** -search_value if name == "life" else search_value
+    unit = "" if o.unit in ("-", "") else f" {o.unit}"
+    return f"{figure * o.csv_scale:.4g}{unit}"
 
 
 def names_for(spec) -> tuple:

@@ -27,7 +27,7 @@ import numpy as np
 
 from optimiser.codesign.assembly import Assembly
 from optimiser.codesign.encoding import Encoding
-from optimiser.codesign import branches
+from optimiser.codesign import branches, objective_table
 from optimiser.codesign.encoding import RECTIFIER_COLUMN
 from optimiser.codesign.objectives import Objectives
 from optimiser.codesign.options import Options, rectifier_heater
@@ -104,6 +104,12 @@ class CoDesign:
         from optimiser.codesign.screening import Screen
 
         return Screen(self)
+
+    @staticmethod
+    def shown(name, value) -> str:
+        """An objective's search value as the progress line gives it
+        (:func:`optimiser.codesign.objective_table.shown`)."""
+        return objective_table.shown(name, value)
 
     def niche(self, X):
         """Each row's rectifier branch (:mod:`optimiser.codesign.branches`): the search keeps a

@@ -15,9 +15,14 @@ import numpy as np
 from optimiser.codesign import objective_table
 from optimiser.codesign.branches import branch_rows, kind_of
 
-__all__ = ["MARKERS", "branch_table", "branch_markdown", "plot_front_branches", "plot_sag_life"]
+__all__ = ["MARKERS", "branch_styles", "draw_branches", "branch_table", "branch_markdown",
+           "plot_front_branches", "plot_sag_life"]
 
+#: Marker shape per branch kind: the one marker scheme of every front plot (results and report).
 MARKERS = {"silicon": "o", "valve": "^", "hybrid": "s", "switchable": "D"}
+
+#: The sag-against-life plot's x axis.
+SAG_LABEL = "sag depth: static drop idle to full power [% of idle B+]"
 
 _COLUMNS = (("branch", "branch"), ("feasible", "meets the spec"), ("designs", "on its front"),
             ("cheapest", "cheapest"), ("cheapest_cost", "its cost"),
@@ -63,44 +68,75 @@ def branch_markdown(rows) -> list:
     return out
 
 
-def _style(keys):
+def branch_styles(keys) -> dict:
+    """{branch key: (marker, colour)}: the marker by the branch's kind (:data:`MARKERS`), a
+    colour per branch in order of first appearance."""
     colours = {k: f"C{i % 10}" for i, k in enumerate(dict.fromkeys(keys))}
     return {k: (MARKERS.get(kind_of(k), "o"), colours[k]) for k in colours}
 
 
+def draw_branches(ax, x, y, keys, on_front=None, *, size=34, labels=None):
+    """Scatter points on an Axes with each point's branch marked (:func:`branch_styles`):
+    filled where on the overall front, hollow where on its branch's front only.
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+    x, y : ndarray (n,)
+    keys : sequence of str (n,)
+        Each point's branch key.
+    on_front : ndarray of bool (n,), optional
+        Default: every point filled.
+    labels : sequence of str (n,), optional
+        A small label beside each point.
+
+    Returns
+    -------
+    list of (artist, ndarray of int)
+        Each scatter with the indices of its points (e.g. to give them links).
+    """
+    x, y = np.asarray(x, float), np.asarray(y, float)
+    keys = np.asarray(keys, object)
+    on_front = np.ones(len(x), bool) if on_front is None else np.asarray(on_front, bool)
+    out = []
+    for key, (marker, colour) in branch_styles(keys.tolist()).items():
+        for filled in (True, False):
+            idx = np.flatnonzero((keys == key) & (on_front == filled))
+            if not len(idx):
+                continue
+            if filled:
+                art = ax.scatter(x[idx], y[idx], marker=marker, color=colour, s=size,
+                                 edgecolors="k", linewidths=0.4, zorder=3, label=key)
+            else:
+                art = ax.scatter(x[idx], y[idx], marker=marker, facecolors="none",
+                                 edgecolors=colour, s=size, zorder=3,
+                                 label=f"{key} (its branch's front only)")
+            out.append((art, idx))
+    for i in range(len(x) if labels is not None else 0):
+        ax.annotate(labels[i], (x[i], y[i]), fontsize=6, xytext=(3, 3),
+                    textcoords="offset points")
+    return out
+
+
 def plot_front_branches(opt, path, idmap):
     """The listed designs (union of the branch fronts) in the pairwise projections of the
-    searched objectives, each point's branch marked."""
+    searched objectives, each point's branch marked (:func:`draw_branches`)."""
     fr = opt.scored.frame
     names = list(opt.binding.objective_names)
     listed = np.asarray(opt.listed, int)
-    on_front = set(int(r) for r in opt.front)
-    keys = fr["branch"].to_numpy(object)
-    style = _style(keys[listed].tolist() or ["-"])
+    on_front = np.isin(listed, np.asarray(opt.front, int))
+    keys = fr["branch"].to_numpy(object)[listed]
+    labels = [idmap.get(int(r), "") for r in listed]
     pairs = [(a, b) for i, a in enumerate(names) for b in names[i + 1:]]
     fig = _figure(4.4 * len(pairs), 4.4)
     for i, (a, b) in enumerate(pairs):
         ax = fig.add_subplot(1, len(pairs), i + 1)
         oa, ob = objective_table.OBJECTIVES[a], objective_table.OBJECTIVES[b]
-        for key, (marker, colour) in style.items():
-            rows = [r for r in listed if keys[r] == key]
-            if not rows:
-                continue
-            x = fr[a].to_numpy(float)[rows] * oa.csv_scale
-            y = fr[b].to_numpy(float)[rows] * ob.csv_scale
-            filled = np.array([r in on_front for r in rows])
-            ax.scatter(x[filled], y[filled], marker=marker, color=colour, s=34,
-                       edgecolors="k", linewidths=0.4, label=f"{key} (overall front)")
-            if (~filled).any():
-                ax.scatter(x[~filled], y[~filled], marker=marker, facecolors="none",
-                           edgecolors=colour, s=34, label=f"{key} (branch front only)")
-            for r, xi, yi in zip(rows, x, y):
-                ax.annotate(idmap.get(r, ""), (xi, yi), fontsize=6, xytext=(3, 3),
-                            textcoords="offset points")
+        x, y = (fr[n].to_numpy(float) * o.csv_scale for n, o in ((a, oa), (b, ob)))
+        draw_branches(ax, x[listed], y[listed], keys, on_front, labels=labels)
         if opt.knee is not None:
-            ax.scatter([fr[a].iloc[opt.knee] * oa.csv_scale], [fr[b].iloc[opt.knee] * ob.csv_scale],
-                       marker="*", s=220, facecolors="none", edgecolors="crimson",
-                       linewidths=1.5, label="recommended")
+            ax.scatter([x[opt.knee]], [y[opt.knee]], marker="*", s=220, facecolors="none",
+                       edgecolors="crimson", linewidths=1.5, label="recommended")
         if a == "life":
             ax.set_xscale("log")
         if b == "life":
@@ -121,26 +157,17 @@ def plot_sag_life(opt, path, idmap):
     branches marked: what a looser supply costs in capacitor and valve life."""
     fr = opt.scored.frame
     listed = np.asarray(opt.listed, int)
-    keys = fr["branch"].to_numpy(object)
-    style = _style(keys[listed].tolist() or ["-"])
     fig = _figure(7.5, 4.8)
     ax = fig.add_subplot(1, 1, 1)
-    for key, (marker, colour) in style.items():
-        rows = [r for r in listed if keys[r] == key]
-        if not rows:
-            continue
-        x = 100 * fr["regulation"].to_numpy(float)[rows]
-        y = fr["life"].to_numpy(float)[rows]
-        ax.scatter(x, y, marker=marker, color=colour, s=36, edgecolors="k", linewidths=0.4,
-                   label=key)
-        for r, xi, yi in zip(rows, x, y):
-            ax.annotate(idmap.get(r, ""), (xi, yi), fontsize=6, xytext=(3, 3),
-                        textcoords="offset points")
+    draw_branches(ax, 100 * fr["regulation"].to_numpy(float)[listed],
+                  fr["life"].to_numpy(float)[listed], fr["branch"].to_numpy(object)[listed],
+                  np.isin(listed, np.asarray(opt.front, int)), size=36,
+                  labels=[idmap.get(int(r), "") for r in listed])
     if opt.spec.sag is not None:
-        t = 100 * opt.spec.sag.target
-        ax.axvline(t, color="crimson", linestyle="dashed", linewidth=0.8, label="sag target")
+        ax.axvline(100 * opt.spec.sag.target, color="crimson", linestyle="dashed",
+                   linewidth=0.8, label="sag target")
     ax.set_yscale("log")
-    ax.set_xlabel("sag depth: static drop idle to full power [% of idle B+]")
+    ax.set_xlabel(SAG_LABEL)
     ax.set_ylabel("shortest part life [h]")
     ax.set_title("Sag against part life, per rectifier branch")
     ax.grid(alpha=0.3, which="both")
