@@ -296,7 +296,8 @@ def _knee_reason(opt) -> str:
     span = np.where(hi > lo, hi - lo, 1.0)
     pos = (F[k] - lo) / span
     parts = ", ".join(f"{name} {100 * p:.0f} % of the way from the front's best to its worst"
-                      for name, p in zip((n.replace("_", " ") for n in opt.binding.objective_names), pos))
+                      for name, p in zip((n.replace("_", " ")
+                                          for n in opt.binding.objective_names), pos))
     return ("It is the knee of the front: the design farthest inside the plane through the "
             "single-objective extremes, where moving towards any one objective costs the "
             f"most in the others (Das, 1999). It sits at {parts}.")

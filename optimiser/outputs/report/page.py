@@ -121,9 +121,9 @@ def _front_table(front: Front, sections, link_base: Path) -> str:
     extra = [(c, "[V]") for c in ("secondary_voltage",) if c in frame.columns]
     text_extra = [c for c in ("rectifier",) if c in frame.columns]
     shown = [n for n in OBJECTIVES if n in frame.columns and np.isfinite(front.objective(n)).any()]
-    heads = ["design", "branch", "role"] + [OBJECTIVES[n].header + (" (searched)" if n in
+    heads = ["design", "role"] + [OBJECTIVES[n].header + (" (searched)" if n in
                                                                     front.searched else "")
-                                            for n in shown]
+                                            for n in shown] + ["branch"]
     heads += [f"{c.replace('_', ' ')} {u}" for c, u in extra] + text_extra + ["design file"]
     rows, ids = [], []
     values = {n: _csv_values(front, n) for n in shown}
@@ -135,8 +135,9 @@ def _front_table(front: Front, sections, link_base: Path) -> str:
         f = front.design_files[i]
         file_link = (f'<a href="{_e(Path(os.path.relpath(f, link_base)).as_posix())}">'
                      f"{_e(f.name)}</a>" if f is not None else "missing")
-        row = [_Cell(link, design_id), str(front.branch[i]), ", ".join(role) or "\u2013"]
+        row = [_Cell(link, design_id), ", ".join(role) or "\u2013"]
         row += [_Cell(_num(values[n][i], 4 if n == "life" else 2), values[n][i]) for n in shown]
+        row.append(str(front.branch[i]))
         row += [_Cell(_num(float(frame[c].iloc[i]), 1), float(frame[c].iloc[i])) for c, _ in extra]
         row += [str(frame[c].iloc[i]) for c in text_extra]
         row.append(_Cell(file_link, f.name if f is not None else ""))

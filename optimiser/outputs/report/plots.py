@@ -355,8 +355,10 @@ def _front_plot(front: Front, anchors, key) -> str:
     _legend_below(fig, ax[0, 0])
     tips = {}
     for i, a in enumerate(anchors):
-        tips[a] = f"{front.ids[i]} ({front.branch[i]}): " + ", ".join(
-            f"{_OBJECTIVE_LABEL[n]} {values[n][i]:.4g}" for n in names)
+        unit = {n: "" if _TABLE[n].unit in ("-", "") else f" {_TABLE[n].unit}" for n in names}
+        tips[a] = (f"{front.ids[i]}: " + ", ".join(
+            f"{n.replace('_', ' ')} {values[n][i]:.4g}{unit[n]}" for n in names)
+            + (f"; {front.branch[i]}" if front.branch[i] else ""))
     return _svg(fig, key, "the Pareto front in pairwise projections, branches marked",
                 tooltips=tips)
 
