@@ -13,6 +13,7 @@ import json
 import math
 import sys
 
+from optimiser.codesign.objective_table import OBJECTIVES
 from optimiser.inputs.design import DesignError
 from optimiser.formats.units import format_quantity
 from optimiser.formats.writing import CAUTION, write_text_atomic
@@ -34,8 +35,9 @@ def _parser() -> argparse.ArgumentParser:
         prog="railwright",
         description="Co-design a valve amplifier's power transformer and HV supply.")
     sub = p.add_subparsers(dest="command", required=True)
-    op = sub.add_parser("optimise", help="search a spec for the Pareto front of cost, "
-                        "regulation and rectifier stress")
+    op = sub.add_parser("optimise", help="search a spec for the Pareto front of its "
+                        "objectives (default cost, regulation or sag error, rectifier stress), "
+                        "a front per rectifier branch")
     op.add_argument("spec", help="spec file (YAML)")
     op.add_argument("--out", metavar="DIR", help="results folder (default: results/<spec name>)")
     op.add_argument("--seed", type=int, help="random seed (default: the spec's)")
@@ -288,10 +290,14 @@ def _optimise(args) -> int:
 
         report = write_results_report(out)
     knee = result.scored.frame.iloc[result.knee]
-    print(f"{len(result.front)} Pareto designs in {elapsed:.1f} s, written to {out}/")
-    print(f"recommended: {knee['rectifier']}, cost {knee['cost']:.1f}, regulation "
-          f"{100 * knee['regulation']:.2f} %, rectifier stress {knee['rectifier_stress']:.3f} "
-          f"(see {out}/summary.md)")
+    met = sum(bool(len(r)) for r in result.branch_fronts.values())
+    print(f"{len(result.front)} Pareto designs ({len(result.listed)} on the fronts of "
+          f"{met} of {len(result.branch_fronts)} rectifier branches) in {elapsed:.1f} s, "
+          f"written to {out}/")
+    print(f"recommended: {knee['rectifier']}, " + ", ".join(
+        f"{name} {OBJECTIVES[name].csv_scale * knee[name]:.4g}"
+        + ("" if OBJECTIVES[name].unit in ("-", "") else f" {OBJECTIVES[name].unit}")
+        for name in result.binding.objective_names) + f" (see {out}/summary.md)")
     if report is not None:
         print(f"report written to {report}")
     print(CAUTION)

@@ -48,14 +48,15 @@ def _spy(monkeypatch):
 
 
 def _recomputed(fig, column):
-    """The column's value and limit straight from its table entry."""
+    """The column's value and (derated) limit straight from its table entry."""
     d = _entry(column.name)
     k = None
     if d.per_node:
         node = column.name.split(".")[1]
         k = fig.node_names.index(node)
     value = np.broadcast_to(np.asarray(d.value(fig, k), float), column.value.shape)
-    limit = np.broadcast_to(np.asarray(d.limit(fig, k), float), column.value.shape)
+    derating = 1.0 if d.derating is None else np.asarray(d.derating(fig, k), float)
+    limit = np.broadcast_to(np.asarray(d.limit(fig, k), float) * derating, column.value.shape)
     return value, limit
 
 
@@ -134,6 +135,7 @@ BUDGET = {
     "diode.average_current": (0.95, -0.01, 0.01),
     "choke.{node}.current": (0.95, -0.01, 0.01),
     "bleeder.{node}.dissipation": (0.95, -0.02, 0.02),
+    "bleeder.{node}.voltage": (0.95, -0.01, 0.01),  # the same peak as capacitor.{node}.voltage
     "valve.piv": (0.95, -0.06, 0.06),
     "diode.piv": (0.95, -0.06, 0.06),
     "valve.peak_plate_current": (0.95, -0.06, 0.06),

@@ -6,6 +6,8 @@ budget (common practice, no source).
 """
 
 import numpy as np
+
+from optimiser.codesign import branches
 import pytest
 
 from optimiser.physics import analytic
@@ -82,8 +84,11 @@ def test_the_front_holds_only_designs_the_full_assessment_passes():
     rows = opt.front
     assert np.all(opt.scored.G[rows] <= 0)
     # most of what the screen kept is feasible in full too (the screen is eased only by its
-    # measured error)
-    assert np.mean(np.all(G <= 0, axis=1)) > 0.5
+    # measured error), among the branches that can meet the spec at all (a branch that cannot
+    # keeps its niche of infeasible designs, to report what binds it)
+    branch = branches.niche_of(spec, opt.search.X[:, 4])
+    live = np.isin(branch, np.unique(branch[np.all(G <= 0, axis=1)]))
+    assert np.mean(np.all(G[live] <= 0, axis=1)) > 0.5
 
 
 def test_the_screen_has_every_check_the_assessment_has(binding):

@@ -105,6 +105,12 @@ class CheckFigures:
         A dropping resistor's power rating [W], a choke's DC current rating [A].
     bleeder_resistance, bleeder_power_rating : ndarray (R, N)
         [ohm], [W]
+    bleeder_element_voltage : ndarray (R, N)
+        The limiting element voltage of the bleeder's resistor class (its working voltage is
+        the lesser of that and sqrt(P R)). [V]
+    capacitor_voltage_derating, resistor_power_derating : ndarray (R,)
+        The conditions' derating: an electrolytic's working voltage, a resistor's dissipation
+        at most this fraction of its rating. [-]
     provenance : mapping or None
         Where the parts' ratings come from, per row: ``valve``, ``diode`` (list of str (R,)),
         ``capacitor`` (per node, list of str (R,)). None: the tier wants no sources.
@@ -149,6 +155,9 @@ class CheckFigures:
     feed_current_rating: np.ndarray
     bleeder_resistance: np.ndarray
     bleeder_power_rating: np.ndarray
+    bleeder_element_voltage: np.ndarray
+    capacitor_voltage_derating: np.ndarray
+    resistor_power_derating: np.ndarray
     provenance: Mapping | None = None
     flux_corner: Sequence | None = None
     rise_corner: Sequence | None = None
@@ -177,6 +186,8 @@ class CheckDef:
         Counts towards the rectifier stress.
     applies : callable (CheckFigures, int) -> bool, optional
         For a per-node check: whether the node has it at all.
+    derating : callable (CheckFigures, int or None) -> ndarray (R,), optional
+        The check's limit is the rating times this fraction (none: the rating itself).
     """
 
     name: str
@@ -188,6 +199,7 @@ class CheckDef:
     minimum: bool = False
     rectifier: bool = False
     applies: Callable | None = None
+    derating: Callable | None = None
 
     @property
     def per_node(self) -> bool:
@@ -276,6 +288,24 @@ def _corner_source(prefix, field):
     return source
 
 
+def _bleeder_working_voltage(f, k):
+    """A bleeder's working voltage: the lesser of its class's element voltage and sqrt(P R)."""
+    return np.fmin(f.bleeder_element_voltage[:, k],
+                   np.sqrt(f.bleeder_power_rating[:, k] * f.bleeder_resistance[:, k]))
+
+
+def _capacitor_derating(f, k):
+    return f.capacitor_voltage_derating
+
+
+def _resistor_derating(f, k):
+    return f.resistor_power_derating
+
+
+#: The derating's wording in a check's description (defaults: conditions, common practice).
+_DERATED = "(derated: conditions.{}, common practice, no source)"
+
+
 TABLE = (
     CheckDef("valve.reservoir_capacitance", "reservoir capacitance (high tolerance) vs the "
              "valve's largest input capacitor", "F",
@@ -332,9 +362,11 @@ TABLE = (
     CheckDef("transformer.hv_rms_current", "HV winding RMS current, high mains, full power", "A",
              lambda f, k: f.high_full["secondary_rms_current"], lambda f, k: f.hv_rated_current,
              "the transformer's rated current in the design"),
-    CheckDef("capacitor.{node}.voltage", "highest voltage: valves cold or idle, high mains", "V",
+    CheckDef("capacitor.{node}.voltage", "highest voltage: valves cold or idle, high mains, vs "
+             "the derated rating " + _DERATED.format("capacitor_voltage_derating"), "V",
              lambda f, k: np.maximum(steady_peak(f)[:, k], 0),
-             lambda f, k: f.capacitor_rated_voltage[:, k], _capacitor_source),
+             lambda f, k: f.capacitor_rated_voltage[:, k], _capacitor_source,
+             derating=_capacitor_derating),
     CheckDef("capacitor.{node}.surge_voltage", "charge-up overshoot at switch-on vs the surge "
              "rating", "V", lambda f, k: f.charge_peak[:, k],
              lambda f, k: f.capacitor_surge_rating[:, k], _capacitor_source),
@@ -342,17 +374,24 @@ TABLE = (
              lambda f, k: f.high_full["capacitor_rms_current"][:, k],
              lambda f, k: f.capacitor_ripple_rating[:, k], _capacitor_source),
     CheckDef("resistor.{node}.dissipation", "dropping resistor dissipation, high mains, full "
-             "power", "W",
+             "power, vs the derated rating " + _DERATED.format("resistor_power_derating"), "W",
              lambda f, k: np.where(_is_choke(f, k), np.nan,
                                    f.feed_resistance[:, k] * _feed_rms(f, k) ** 2),
-             lambda f, k: f.feed_power_rating[:, k], "the design's power rating", applies=_fed),
+             lambda f, k: f.feed_power_rating[:, k], "the design's power rating", applies=_fed,
+             derating=_resistor_derating),
     CheckDef("choke.{node}.current", "choke DC current, high mains, full power", "A",
              lambda f, k: np.where(_is_choke(f, k), _feed_dc(f, k), np.nan),
              lambda f, k: f.feed_current_rating[:, k], "the design's current rating",
              applies=_fed),
-    CheckDef("bleeder.{node}.dissipation", "bleeder dissipation at the highest voltage", "W",
+    CheckDef("bleeder.{node}.dissipation", "bleeder dissipation at the highest voltage, vs the "
+             "derated rating " + _DERATED.format("resistor_power_derating"), "W",
              lambda f, k: steady_peak(f)[:, k] ** 2 / f.bleeder_resistance[:, k],
-             lambda f, k: f.bleeder_power_rating[:, k], "the design's power rating"),
+             lambda f, k: f.bleeder_power_rating[:, k], "the design's power rating",
+             derating=_resistor_derating),
+    CheckDef("bleeder.{node}.voltage", "bleeder voltage at the highest voltage vs its working "
+             "voltage (the lesser of its class's element voltage and sqrt(P R))", "V",
+             lambda f, k: np.maximum(steady_peak(f)[:, k], 0), _bleeder_working_voltage,
+             "the resistor catalogue's limiting element voltage"),
     CheckDef("bleeder.{node}.discharge_time", "time to fall below the safe voltage after "
              "switch-off (valves drawing nothing)", "s", lambda f, k: f.discharge_time[:, k],
              lambda f, k: f.discharge_time_limit,
@@ -382,6 +421,7 @@ def evaluate(fig: CheckFigures, table=None) -> list:
             source = d.source
         else:
             source = d.source(fig, k) if fig.provenance is not None else [""] * rows
+        derating = 1.0 if d.derating is None else d.derating(fig, k)
         out.append(ratings.column(name, d.what, d.unit, d.value(fig, k), d.limit(fig, k), source,
-                                  minimum=d.minimum, rectifier=d.rectifier))
+                                  minimum=d.minimum, rectifier=d.rectifier, derating=derating))
     return out

@@ -29,7 +29,7 @@ import pandas as pd
 from optimiser.assessment import validity
 from optimiser.parts import catalogue as parts
 from optimiser.assessment import checks as check_table
-from optimiser.physics import ratings, supply, transients
+from optimiser.physics import life as wear, ratings, supply, transients
 from optimiser.physics.transformer.corners import worst_corners_by_design
 from optimiser.physics.transformer.rating import winding_error_by_design
 from optimiser.inputs.design import Design, load_design
@@ -265,7 +265,7 @@ def _assess_group(designs, detail, dynamics=True):
             checks.append(ratings.Check(name=c.name, what=c.what, unit=c.unit,
                                         value=float(c.value[j]), limit=float(c.limit[j]),
                                         ratio=float(ratio), passed=bool(ratio <= 1.0),
-                                        source=c.source[j]))
+                                        source=c.source[j], derating=float(c.derating[j])))
         idle_dc = f["nominal_idle"]["dc_voltage"][j]
         full_dc = f["nominal_full"]["dc_voltage"][j]
         nodes = []
@@ -378,6 +378,11 @@ def _check_figures(designs, valves, diodes, f, surge, charge_peak, discharge):
         bleeder_resistance=np.column_stack([[n.bleeder or np.nan for n in ns] for ns in nodes]),
         bleeder_power_rating=np.column_stack(
             [check_table.attribute_array(ns, "bleeder_power_rating") for ns in nodes]),
+        bleeder_element_voltage=np.column_stack(
+            [[parts.resistor_element_voltage(n.bleeder_power_rating) for n in ns]
+             for ns in nodes]),
+        capacitor_voltage_derating=np.array([c.capacitor_voltage_derating for c in cond]),
+        resistor_power_derating=np.array([c.resistor_power_derating for c in cond]),
         provenance={"valve": _provenance(valves, "valve"), "diode": _provenance(diodes, "diode"),
                     "capacitor": [[f"the design's rated voltage; {s.name}: {s.provenance}"
                                    for s in ss] for ss in series]},
@@ -393,6 +398,11 @@ def _has_rating(series, rated_voltage):
 
 
 def _life(designs, valves, f):
+    """Life of the parts that wear, per design, and the shortest on one scale of hours
+    (:mod:`optimiser.physics.life`): each electrolytic at its worst core temperature (the
+    highest ripple current over the corners), the valve rectifier by its cathode loading at
+    high mains and full power."""
+    ripple = np.maximum.reduce([f[c]["capacitor_rms_current"] for c in CORNERS])
     out = []
     for j, d in enumerate(designs):
         caps = []
@@ -403,8 +413,7 @@ def _life(designs, valves, f):
             if node.rated_voltage is not None and _has_rating(series, node.rated_voltage):
                 life, core = ratings.capacitor_life(
                     series.rated_life, series.rated_temperature, d.conditions.ambient,
-                    f["nominal_full"]["capacitor_rms_current"][j, k],
-                    series.ripple_rating(node.capacitance, node.rated_voltage),
+                    ripple[j, k], series.ripple_rating(node.capacitance, node.rated_voltage),
                     d.conditions.ripple_self_heating)
                 entry.update(core_temperature=float(core), life_hours=float(life / 3600.0))
             else:
@@ -413,14 +422,20 @@ def _life(designs, valves, f):
         v = valves[j]
         valve = None
         if v is not None:
-            loading, rel = ratings.valve_cathode_loading(
-                2 * f["nominal_full"]["rectifier_average_current"][j], v.max_dc_current)
+            current = 2 * f["high_full"]["rectifier_average_current"][j]
+            loading, rel = ratings.valve_cathode_loading(current, v.max_dc_current)
             valve = {"name": v.name, "cathode_loading": float(loading),
-                     "relative_life": float(rel)}
+                     "relative_life": float(rel),
+                     "life_hours": float(wear.valve_life_hours(current, v.max_dc_current))}
+        hours = [c["life_hours"] for c in caps if c["life_hours"] is not None]
+        hours += [valve["life_hours"]] if valve is not None else []
         out.append({"capacitors": caps, "rectifier_valve": valve,
-                    "source": "capacitor: 10 degC rule with ripple self-heating (makers' "
-                              "application notes; common practice); valve: inverse cathode "
-                              "loading (common practice, no source)"})
+                    "shortest_hours": float(min(hours)) if hours else None,
+                    "source": "capacitor: 10 degC rule at the worst core temperature (ripple "
+                              "self-heating; makers' application notes; common practice); "
+                              f"valve: {wear.VALVE_LIFE_AT_RATING:g} h at its rated current "
+                              "(common practice, no source) over its cathode loading at high "
+                              "mains, full power"})
     return out
 
 
@@ -537,6 +552,8 @@ def _row(a: Assessment) -> dict:
                 row[f"{n['name']}.{key}"] = value
     for node in a.steady.nodes:
         row[f"{node.name}.ripple_pp"] = node.ripple_pp
+    hours = a.life.get("shortest_hours")
+    row["shortest_life"] = np.nan if hours is None else hours  # [h]
     return row
 
 

@@ -180,7 +180,7 @@ class Assembly:
             bleeder = float(fitting.max()) if fitting.size else float(values[0])
             nodes[k] = node.model_copy(update={
                 "bleeder": bleeder,
-                "bleeder_power_rating": o.resistor_power(crest ** 2 / bleeder)})
+                "bleeder_power_rating": o.resistor_power(crest ** 2 / bleeder, crest)})
         transformer = EquivalentTransformer.model_construct(
             secondary_voltage=v_oc, secondary_resistance=float(built.hv_series_resistance),
             leakage_inductance=float(built.hv_leakage_inductance), rated_current=c.hv_current,

@@ -5,7 +5,11 @@ A *definition* is any object with
 - ``variables``: a sequence of :class:`Variable` (float columns; integer columns hold indices),
 - ``objective_names`` and ``constraint_names``: sequences of str,
 - ``evaluate(X) -> (F, G)``: objectives (B, n_obj) to minimise and constraints (B, n_constr),
-  feasible where every ``G <= 0``, for a whole population at once.
+  feasible where every ``G <= 0``, for a whole population at once,
+- optionally ``shown(name, search value) -> str``: an objective's best value as the progress
+  line gives it,
+- optionally ``niche(X) -> labels (B,)``: rows with different labels never compete for
+  survival (:class:`NicheSurvival`), so that each niche keeps its own front.
 
 :func:`run` searches it with a fixed generation budget (in three objectives the whole population
 soon becomes non-dominated, so tolerance-based stopping would never stop), reproducibly from a
@@ -24,7 +28,7 @@ from pymoo.core.problem import Problem
 from pymoo.core.repair import Repair
 from pymoo.operators.mutation.pm import PM
 
-__all__ = ["Variable", "IntegerRepair", "IndexResetMutation", "VectorProblem", "SearchResult",
+__all__ = ["Variable", "NicheSurvival", "IntegerRepair", "IndexResetMutation", "VectorProblem", "SearchResult",
            "run", "non_dominated", "random_population", "knee"]
 
 
@@ -132,6 +136,51 @@ class IndexResetMutation(PM):
             draws = self.lower[cols] + np.floor(random_state.random((len(X), cols.size)) * span)
             X[:, cols] = np.where(redraw, draws, X[:, cols])
         return X
+
+
+class NicheSurvival:
+    """NSGA-II survival run within each niche, each niche given an equal share of the places.
+
+    A niche with fewer members than its share keeps them all and its unused places go to the
+    others (evenly, in label order), so the population stays full. Niches never compete, so a
+    niche the others dominate (e.g. a valve rectifier beside a cheaper silicon one) is kept
+    alive with its own front instead of being bred out. Ranks and crowding are set within each
+    niche; the tournament compares them as usual.
+
+    Parameters
+    ----------
+    niche_of : callable X -> labels (B,)
+    """
+
+    def __init__(self, niche_of):
+        from pymoo.operators.survival.rank_and_crowding import RankAndCrowding
+
+        self.niche_of = niche_of
+        self.inner = RankAndCrowding()
+
+    def do(self, problem, pop, *args, n_survive=None, random_state=None, **kwargs):
+        from pymoo.core.population import Population
+
+        n_survive = len(pop) if n_survive is None else min(n_survive, len(pop))
+        labels = np.asarray(self.niche_of(pop.get("X")))
+        kinds, sizes = np.unique(labels, return_counts=True)
+        quota = np.zeros(len(kinds), int)
+        left = n_survive
+        open_ = np.ones(len(kinds), bool)
+        while left > 0 and open_.any():
+            share = max(left // int(open_.sum()), 1)
+            for i in np.flatnonzero(open_):
+                take = min(share, sizes[i] - quota[i], left)
+                quota[i] += take
+                left -= take
+                if quota[i] >= sizes[i]:
+                    open_[i] = False
+                if left == 0:
+                    break
+        parts = [self.inner.do(problem, pop[labels == k], n_survive=int(q),
+                               random_state=random_state)
+                 for k, q in zip(kinds, quota) if q > 0]
+        return Population.merge(*parts) if len(parts) > 1 else parts[0]
 
 
 _WORKER_DEFINITION = None
@@ -319,7 +368,7 @@ def knee(F):
     return int(np.argmax(distance))
 
 
-def _make_callback(objective_names, history, bar):
+def _make_callback(objective_names, history, bar, shown=None):
     from pymoo.core.callback import Callback
 
     class _Watch(Callback):
@@ -336,7 +385,8 @@ def _make_callback(objective_names, history, bar):
             if bar is not None:
                 post = {"feasible": entry["feasible"]}
                 if feasible.any():
-                    post.update({k: f"{v:.4g}" for k, v in best.items()})
+                    post.update({k: f"{v:.4g}" if shown is None else shown(k, v)
+                                 for k, v in best.items()})
                 else:
                     post["least violation"] = f"{entry['least_violation']:.3g}"
                 bar.set_postfix(post, refresh=False)
@@ -396,6 +446,8 @@ def run(definition, population=100, generations=100, seed=1, workers=1, progress
         kwargs = {}
         if initial is not None:
             kwargs["sampling"] = repair._do(problem, np.asarray(initial, float))
+        if hasattr(definition, "niche"):
+            kwargs["survival"] = NicheSurvival(definition.niche)
         algorithm = NSGA2(pop_size=population, repair=repair, eliminate_duplicates=True,
                           mutation=IndexResetMutation(problem.variables, eta=20),
                           return_least_infeasible=True, **kwargs)
@@ -405,7 +457,8 @@ def run(definition, population=100, generations=100, seed=1, workers=1, progress
 
             bar = tqdm(total=generations, desc="search", unit="gen", file=sys.stderr,
                        leave=False, dynamic_ncols=True)
-        callback = _make_callback(list(definition.objective_names), history, bar)
+        callback = _make_callback(list(definition.objective_names), history, bar,
+                                  getattr(definition, "shown", None))
         res = minimize(problem, algorithm, ("n_gen", generations), seed=seed, callback=callback,
                        verbose=False, copy_algorithm=False)
     finally:

@@ -5,10 +5,12 @@ Both tiers of the search fill the same figures (the full assessment in
 them to :meth:`Objectives.objective_values` and :meth:`Objectives.constraint_values`, so the
 two agree column for column:
 
-- objectives ``F`` = :data:`OBJECTIVES` = [cost, regulation, rectifier_stress], all minimised:
-  cost in cost units; regulation the distance of the static sag from its target (or the sag
-  itself when the spec sets no target), as a fraction; rectifier stress the worst
-  actual-to-rated ratio over the rectifier's ratings;
+- objectives ``F``: the spec's 2-4 named objectives (:attr:`Objectives.names`; default cost,
+  regulation or sag_error, rectifier_stress), each defined once in
+  :mod:`optimiser.codesign.objective_table` (cost in cost units; regulation the static drop at
+  the sag node; sag_error its distance from the target; rectifier stress the worst
+  actual-to-rated ratio of the rectifier's ratings; life the shortest part life), in their
+  search values;
 - constraints ``G`` (feasible where every column is <= 0): each node's DC voltage inside its
   window, ripple inside its limit, the sag inside its tolerance (and attack/recovery inside
   their windows), the transformer buildable, each capacitor value made at its rating, and every
@@ -26,13 +28,15 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from optimiser.codesign import objective_table
 from optimiser.formats.units import format_quantity
 from optimiser.inputs.spec import Spec
 
 __all__ = ["OBJECTIVES", "ConstraintInfo", "Unmet", "Objectives"]
 
-#: The objectives, in the order of F's columns (and of the results' columns).
-OBJECTIVES = ("cost", "regulation", "rectifier_stress")
+#: Every objective a spec may name, in the order of the results' objective columns
+#: (:data:`optimiser.codesign.objective_table.OBJECTIVES`).
+OBJECTIVES = tuple(objective_table.OBJECTIVES)
 
 
 @dataclass(frozen=True)
@@ -107,10 +111,10 @@ class Objectives:
         one further column.
     """
 
-    names = OBJECTIVES
-
     def __init__(self, spec: Spec, check_names):
         self.spec = spec
+        #: the objectives searched, in F's column order
+        self.names = objective_table.names_for(spec)
         self.check_names = tuple(check_names)
         self.constraints = self._constraint_info()
         self.constraint_names = [ci.name for ci in self.constraints]
@@ -161,14 +165,18 @@ class Objectives:
                                   "ratio"))
         return out
 
-    @staticmethod
-    def objective_values(cost, regulation, stress):
-        """F (B, 3) from the objectives' figures; a figure that failed counts as very bad."""
-        F = np.column_stack([cost, regulation, stress])
-        return np.where(np.isfinite(F), F, 1e6)
+    def objective_figures(self, cost, drop, stress, life):
+        """Every objective's figure per design, {name: (B,)}, from cost [cost units], the
+        static drop at the sag node per position (B, P) [-], the rectifier stress [-] and the
+        shortest part life [h] (:func:`optimiser.codesign.objective_table.figures_of`)."""
+        return objective_table.figures_of(self.spec, cost, drop, stress, life)
+
+    def objective_values(self, figures):
+        """F (B, n_obj) of the searched objectives; a figure that failed counts as very bad."""
+        return objective_table.search_values(self.names, figures)
 
     def constraint_values(self, figures, buildable, made, ratios):
-        """(regulation (B,), G (B, M)) from the figures of designs.
+        """G (B, M) from the figures of designs.
 
         Parameters
         ----------
@@ -199,7 +207,6 @@ class Objectives:
         drop = figures["static_drop"]
         if s.sag is not None:
             off = np.abs(drop - s.sag.target)
-            regulation = worst(off)
             g.append(worst((off - s.sag.tolerance) / s.sag.tolerance))
             for what in ("attack", "recovery"):
                 window = getattr(s.sag, what)
@@ -210,8 +217,6 @@ class Objectives:
                     g.append(worst((window.min - t) / window.min))
                 if window.max is not None:
                     g.append(worst((t - window.max) / window.max))
-        else:
-            regulation = worst(drop)
         g.append(np.where(buildable, 0.0, 1.0))
         for k in range(len(s.nodes)):
             g.append(np.where(made[:, k], -1.0, 1.0))
@@ -225,4 +230,4 @@ class Objectives:
         else:
             g.append(np.full(count, -1.0))
         G = np.column_stack(g)
-        return regulation, np.where(np.isnan(G), 1e6, G)  # a failed figure fails its constraint
+        return np.where(np.isnan(G), 1e6, G)  # a failed figure fails its constraint

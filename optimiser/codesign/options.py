@@ -162,6 +162,8 @@ class Options:
         rated = table["rated"]
         capacitance, crest, step = (np.atleast_1d(np.asarray(x, float)) for x in
                                     (capacitance, crest, step))
+        # the working voltage at most the derated share of the rating (conditions)
+        crest = crest / self.conditions.capacitor_voltage_derating
         first = np.minimum(np.searchsorted(rated, crest, side="left"), len(rated) - 1)
         i = np.minimum(first + step.astype(int), len(rated) - 1)
         made_at = ((table["min"][None, :] <= capacitance[:, None])
@@ -175,16 +177,20 @@ class Options:
         j, made = self.capacitor_rating(node, capacitance, crest, step)
         return float(self.offered_ratings[node]["rated"][j[0]]), bool(made[0])
 
-    def resistor_class(self, dissipation):
+    def resistor_class(self, dissipation, voltage=None):
         """Index into the resistor classes (by power) of the smallest whose derated power
-        covers the asked margin over a dissipation, else the largest. Arrays or scalars."""
+        covers the asked margin over a dissipation (and whose element voltage covers
+        ``voltage``, if given), else the largest. Arrays or scalars."""
         need = self.spec.margins.resistor_power_factor * np.asarray(dissipation, float)
         fits = self.derated_power >= need[..., None]
+        if voltage is not None:
+            working = np.array([p.max_working_voltage for p in self.resistor_classes])
+            fits = fits & (working >= np.asarray(voltage, float)[..., None])
         return np.where(fits.any(axis=-1), np.argmax(fits, axis=-1), len(self.derated_power) - 1)
 
-    def resistor_power(self, dissipation):
+    def resistor_power(self, dissipation, voltage=None):
         """Power rating of the resistor class :meth:`resistor_class` picks. [W]"""
-        return self.resistor_classes[int(self.resistor_class(dissipation))].power
+        return self.resistor_classes[int(self.resistor_class(dissipation, voltage))].power
 
 
 def _offered_ratings(choice) -> dict:

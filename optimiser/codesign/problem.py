@@ -23,9 +23,13 @@ from __future__ import annotations
 
 from functools import cached_property
 
+import numpy as np
+
 from optimiser.codesign.assembly import Assembly
 from optimiser.codesign.encoding import Encoding
-from optimiser.codesign.objectives import OBJECTIVES, Objectives
+from optimiser.codesign import branches, objective_table
+from optimiser.codesign.encoding import RECTIFIER_COLUMN
+from optimiser.codesign.objectives import Objectives
 from optimiser.codesign.options import Options, rectifier_heater
 from optimiser.codesign.scoring import Scoring, check_names
 from optimiser.inputs.spec import Spec
@@ -49,7 +53,6 @@ class CoDesign:
     scoring : Scoring
     """
 
-    objective_names = OBJECTIVES
     #: :meth:`evaluate` gives each row the same result in any batch (see
     #: :mod:`optimiser.codesign.nsga`).
     batch_independent = True
@@ -61,6 +64,8 @@ class CoDesign:
         self.assembly = Assembly(o)
         self.objectives = Objectives(spec, check_names(o, self.encoding, self.assembly))
         self.scoring = Scoring(o, self.objectives)
+        #: the objectives searched, in F's column order (:mod:`objective_table`)
+        self.objective_names = self.objectives.names
         # the tables, under the names the screen and the outputs read
         self.node_names = o.node_names
         self.conditions = o.conditions
@@ -87,6 +92,7 @@ class CoDesign:
         self.check_names = self.objectives.check_names
         self.constraints = self.objectives.constraints
         self.constraint_names = self.objectives.constraint_names
+        self.objective_figures = self.objectives.objective_figures
         self.objective_values = self.objectives.objective_values
         self.constraint_values = self.objectives.constraint_values
         self.score = self.scoring.score
@@ -99,8 +105,19 @@ class CoDesign:
 
         return Screen(self)
 
+    @staticmethod
+    def shown(name, value) -> str:
+        """An objective's search value as the progress line gives it
+        (:func:`optimiser.codesign.objective_table.shown`)."""
+        return objective_table.shown(name, value)
+
+    def niche(self, X):
+        """Each row's rectifier branch (:mod:`optimiser.codesign.branches`): the search keeps a
+        front per branch (:class:`optimiser.codesign.nsga.NicheSurvival`)."""
+        return branches.niche_of(self.spec, np.atleast_2d(X)[:, RECTIFIER_COLUMN])
+
     def evaluate(self, X):
-        """Objectives and constraints of a population for the search: (F (B, 3), G (B, M)),
+        """Objectives and constraints of a population for the search: (F (B, n_obj), G (B, M)),
         from the screening tier (:mod:`optimiser.codesign.screening`). What the search keeps is
         re-assessed in full by :func:`optimiser.codesign.optimise`."""
         return self.screen.evaluate(X)

@@ -16,6 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 
 import optimiser.codesign.nsga as search
+from optimiser.codesign import branches, objective_table
 from optimiser.codesign.objectives import Unmet
 from optimiser.codesign.problem import CoDesign
 from optimiser.codesign.scoring import Scored
@@ -43,6 +44,9 @@ class Optimisation:
     unmet : tuple of Unmet
         Constraints that no design of the final assessment met (the search's final population
         and the best designs it found on the way).
+    branch_fronts : dict
+        {branch key: rows of ``scored`` on that branch's own front} for every branch of the
+        spec (:mod:`optimiser.codesign.branches`; empty where none of it met the spec).
     """
 
     spec: Spec
@@ -52,6 +56,16 @@ class Optimisation:
     front: np.ndarray
     knee: int | None
     unmet: tuple
+    branch_fronts: dict = None
+
+    @property
+    def listed(self) -> np.ndarray:
+        """Rows of the union of the branch fronts (and the overall front), by cost: what the
+        results list."""
+        rows = np.unique(np.concatenate([np.asarray(r, int) for r in
+                                         (self.branch_fronts or {}).values()]
+                                        + [np.asarray(self.front, int)]))
+        return rows[np.argsort(self.scored.frame["cost"].to_numpy(float)[rows], kind="stable")]
 
     @property
     def found(self) -> bool:
@@ -74,12 +88,13 @@ class Optimisation:
                 for r in rows]
 
 
-def reported_front(F, feasible, resolution):
+def reported_front(F, feasible, resolution, names=("cost", "regulation", "rectifier_stress")):
     """Rows of the feasible, non-dominated designs, telling apart only objective differences
-    larger than the spec's resolution (of designs that tie, the cheapest is kept); by cost."""
-    steps = np.array([resolution.cost, resolution.regulation, resolution.rectifier_stress])
+    larger than the spec's resolution (of designs that tie, the first in F's column order is
+    kept); by F's first column (cost). ``names``: the objectives of F's columns."""
+    steps = objective_table.resolution_steps(names, resolution)
     coarse = np.where(steps > 0, np.round(F / np.where(steps > 0, steps, 1.0)) * steps, F)
-    order = np.lexsort((F[:, 2], F[:, 1], F[:, 0]))
+    order = np.lexsort(F.T[::-1])
     rank = np.empty(len(F), int)
     rank[order] = np.arange(len(F))
     rows = np.flatnonzero(feasible)
@@ -90,7 +105,8 @@ def reported_front(F, feasible, resolution):
 
 def optimise(spec: Spec, *, population=None, generations=None, seed=None, workers=None,
              progress=False) -> Optimisation:
-    """Search a spec's design space for the Pareto front of cost, regulation and rectifier stress.
+    """Search a spec's design space for the Pareto front of its objectives, a front per
+    rectifier branch and their union (:mod:`optimiser.codesign.branches`).
 
     Parameters
     ----------
@@ -116,9 +132,19 @@ def optimise(spec: Spec, *, population=None, generations=None, seed=None, worker
     kept = np.vstack([result.X, result.archive]) if len(result.archive) else result.X
     candidates = list(dict.fromkeys(binding.decode(kept)))
     scored = binding.score(binding.designs(candidates))
-    front = reported_front(scored.F, scored.feasible, spec.search.resolution)
+
+    def front_of(F, mask):
+        return reported_front(F, mask, spec.search.resolution, binding.objective_names)
+
+    keys = scored.frame["branch"].to_numpy(object)
+    found = branches.branch_fronts(scored.F, scored.feasible, keys, front_of)
+    fronts = {b.key: found.get(b.key, np.array([], int)) for b in branches.branches_of(spec)}
+    front = branches.union_front(scored.F, fronts, front_of)
+    # the sag step for the listed designs, where the search did without it
+    scored = branches.with_dynamics(binding, scored, np.unique(np.concatenate(
+        [front] + list(fronts.values()))))
     knee = int(front[search.knee(scored.F[front])]) if len(front) else None
     unmet = tuple(Unmet(info, float(best)) for info, best in
                   zip(binding.constraints, scored.G.min(axis=0)) if best > 0)
     return Optimisation(spec=spec, binding=binding, search=result, scored=scored, front=front,
-                        knee=knee, unmet=unmet)
+                        knee=knee, unmet=unmet, branch_fronts=fronts)

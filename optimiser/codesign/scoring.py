@@ -18,6 +18,7 @@ import pandas as pd
 
 from optimiser.assessment import bill
 from optimiser.assessment.full import assess_many
+from optimiser.codesign import branches
 from optimiser.codesign.assembly import Assembly
 from optimiser.codesign.encoding import RECTIFIER_COLUMN, Encoding
 from optimiser.codesign.objectives import OBJECTIVES, Objectives
@@ -40,7 +41,8 @@ class Scored:
         figures, the assessment's figures (nominal full power under the names
         :func:`~optimiser.assessment.steady_state.evaluate_many` uses where it has them) and
         ``check: <name>`` ratio columns.
-    F : ndarray (B, 3)
+    F : ndarray (B, n_obj)
+        The searched objectives' search values (:mod:`optimiser.codesign.objective_table`).
     G : ndarray (B, M)
     table : AssessmentTable
         The assessment itself.
@@ -91,12 +93,14 @@ class Scoring:
         self.objectives = objectives
         self.spec = options.spec
 
-    def score(self, designs) -> Scored:
+    def score(self, designs, dynamics=None) -> Scored:
         """Assess, price and score designs (built by :meth:`Assembly.designs`, or read from
-        files)."""
+        files); ``dynamics``: run the sag step (default: only where the spec sets its
+        windows)."""
         s = self.spec
         count = len(designs)
-        table = assess_many(designs, dynamics=self.options.sag_dynamics)
+        table = assess_many(designs, dynamics=self.options.sag_dynamics if dynamics is None
+                            else dynamics)
         fr = table.frame
 
         def columns(name):
@@ -117,8 +121,7 @@ class Scoring:
             figures[f"{what}_time"] = columns(f"{sag_name}.{what}_time").astype(float)
         ratios = {name: table.ratios[name].to_numpy(float) for name in table.ratios.columns}
         buildable = np.array([_buildable(d) for d in designs])
-        regulation, G = self.objectives.constraint_values(figures, buildable,
-                                                          self._made(designs), ratios)
+        G = self.objectives.constraint_values(figures, buildable, self._made(designs), ratios)
         # no working steady state (assessment.validity): infeasible on every constraint
         unworkable = fr["unworkable"].astype(bool).to_numpy()
         G[unworkable] = np.maximum(G[unworkable], 1.0)
@@ -126,8 +129,16 @@ class Scoring:
         lines = [self.parts_list(d) for d in designs]
         cost = np.array([sum(line.cost for line in ls) for ls in lines])
         stress = fr["rectifier_stress"].to_numpy(float)
-        F = self.objectives.objective_values(cost, regulation, stress)
-        frame = _frame(designs, lines, F, G, table)
+        life = columns("shortest_life")  # worst position
+        life = np.where(np.isnan(life).all(axis=1), np.nan,
+                        np.nanmin(np.where(np.isnan(life), np.inf, life), axis=1))
+        figs = self.objectives.objective_figures(cost, figures["static_drop"], stress, life)
+        for what in ("attack_time", "recovery_time"):  # worst position, for the results
+            t = figures[what]
+            figs[what] = np.where(np.isnan(t).all(axis=1), np.nan,
+                                  np.nanmax(np.where(np.isnan(t), -np.inf, t), axis=1))
+        F = self.objectives.objective_values(figs)
+        frame = _frame(designs, lines, figs, G, table)
         return Scored(designs=list(designs), frame=frame, F=F, G=G, table=table)
 
     def _made(self, designs):
@@ -162,14 +173,16 @@ class Scoring:
         return out
 
 
-def _frame(designs, lines, F, G, table):
-    """The results table: one row per design (see :attr:`Scored.frame`)."""
+def _frame(designs, lines, figs, G, table):
+    """The results table: one row per design (see :attr:`Scored.frame`): every objective's
+    figure (whichever are searched) and the sag times, then the choices and figures."""
     rows = []
     for d, ls in zip(designs, lines):
         t = d.transformer
         td = d.transformer_design
         row = {
             "rectifier": _rectifier_label(d.rectifier),
+            "branch": branches.branch_key(d.rectifier),
             "secondary_voltage": t.build.hv.voltage if t.build is not None else np.nan,
             "hv_current_rating": t.rated_current,
             "core": t.build.core if t.build is not None else None,
@@ -206,9 +219,10 @@ def _frame(designs, lines, F, G, table):
                 row[f"transformer.{key}"] = float(getattr(td, key))
         rows.append(row)
     mine = pd.DataFrame(rows)
-    for i, name in enumerate(OBJECTIVES):
-        mine.insert(1 + i, name, F[:, i])
-    mine.insert(1 + len(OBJECTIVES), "feasible", np.all(G <= 0, axis=1))
+    named = list(OBJECTIVES) + ["attack_time", "recovery_time"]
+    for i, name in enumerate(named):
+        mine.insert(1 + i, name, figs[name])
+    mine.insert(1 + len(named), "feasible", np.all(G <= 0, axis=1))
     assessed = table.frame.drop(columns=["rectifier_stress"], errors="ignore")
     checks = table.ratios.add_prefix("check: ")
     return pd.concat([mine, assessed.reset_index(drop=True),

@@ -14,11 +14,13 @@ import numpy as np
 from optimiser.assessment import checks as check_table
 from optimiser.assessment.steady_state import LEAKAGE_CONDUCTANCE, MIN_PATH_RESISTANCE
 from optimiser.physics import analytic
+from optimiser.physics import life as wear
 from optimiser.physics import ladder
 from optimiser.physics import transients
 from optimiser.physics.rectifier import PathElements
 
-__all__ = ["CORNERS", "Rows", "corners", "switch_on", "check_figures", "sag_times"]
+__all__ = ["CORNERS", "Rows", "corners", "switch_on", "check_figures", "shortest_life",
+           "sag_times"]
 
 #: Corners the constraints read: (name, mains at its high corner, capacitors at high tolerance,
 #: loads).
@@ -120,8 +122,9 @@ def switch_on(r: Rows, f, high, tol_plus, c_plus, frequency, safe_voltage):
 
 
 def check_figures(binding, options, r: Rows, f, switch, tr, cap, feed, bleeder_power,
-                  hv_rated_current, tol_plus):
-    """The rows' figures for the check table (:class:`check_table.CheckFigures`).
+                  hv_rated_current, tol_plus, bleeder_element_voltage):
+    """The rows' figures for the check table (:class:`check_table.CheckFigures`);
+    ``bleeder_power``, ``bleeder_element_voltage`` (B, N) of each design's bleeder class.
 
     The search's designs never share a heater winding with the rectifier valve (see
     :meth:`CoDesign._rectifier_model`), so that check never applies here.
@@ -156,7 +159,34 @@ def check_figures(binding, options, r: Rows, f, switch, tr, cap, feed, bleeder_p
         capacitor_ripple_rating=cap["ripple"][o],
         feed_resistance=r.feed_resistance, feed_inductance=r.feed_inductance,
         feed_power_rating=feed["power"][o], feed_current_rating=feed["current"][o],
-        bleeder_resistance=r.bleeder, bleeder_power_rating=bleeder_power[o])
+        bleeder_resistance=r.bleeder, bleeder_power_rating=bleeder_power[o],
+        bleeder_element_voltage=bleeder_element_voltage[o],
+        capacitor_voltage_derating=np.full(rows, cond.capacitor_voltage_derating),
+        resistor_power_derating=np.full(rows, cond.resistor_power_derating))
+
+
+def shortest_life(f, r: Rows, options, series, ripple_rating, cond):
+    """Shortest part life per row [h] (R,), as the full assessment reckons it
+    (:mod:`optimiser.physics.life`): each capacitor at the highest ripple current of the
+    screen's corners, the valve rectifier at high mains, full power.
+
+    Parameters
+    ----------
+    series : sequence of capacitor series (N,)
+    ripple_rating : ndarray (R, N)
+        Each capacitor's ripple current rating. [A]
+    cond : Conditions
+    """
+    ripple = np.maximum.reduce([f[c]["capacitor_rms_current"] for c, _, _ in CORNERS])
+    lives = [wear.capacitor_life_hours(sr.rated_life, sr.rated_temperature, cond.ambient,
+                                       ripple[:, k], ripple_rating[:, k],
+                                       cond.ripple_self_heating)
+             for k, sr in enumerate(series)]
+    rated = options.ratings["valve.max_dc_current"][r.position]
+    with np.errstate(all="ignore"):
+        valve = wear.valve_life_hours(2 * f["high_full"]["rectifier_average_current"], rated)
+    lives.append(np.where(options.has_valve[r.position], valve, np.nan))
+    return wear.shortest(*lives)
 
 
 def sag_times(f, stacked, rows, n, frequency, idle, full, hold, release):

@@ -134,6 +134,7 @@ class PartTables:
             self.feed.append(np.array(rows, float).reshape(-1, 5))
         # resistor classes: power and price (by rated power)
         self.class_power = np.array([c.power for c in binding._resistor_classes])
+        self.class_working = np.array([c.max_working_voltage for c in binding._resistor_classes])
         self.class_cost = np.array([bill._resistor_line("", 1.0, p, s.ambient).cost
                                     for p in self.class_power])
         self.bleeder_values = np.sort(parts.e_series(BLEEDER_SERIES, range(2, 8)))
@@ -184,7 +185,7 @@ class PartTables:
         r_max = allowed / (c_plus * np.log(crest[:, None] / cond.safe_voltage))
         pick = np.searchsorted(self.bleeder_values, r_max * (1 + 1e-12), side="right") - 1
         bleeder = self.bleeder_values[np.maximum(pick, 0)]
-        klass = b.resistor_class(crest[:, None] ** 2 / bleeder)
+        klass = b.resistor_class(crest[:, None] ** 2 / bleeder, crest[:, None])
         return {"resistance": bleeder, "power": self.class_power[klass], "class": klass,
                 "c_plus": c_plus}
 

@@ -101,7 +101,7 @@ class Screen:
         return slack
 
     def evaluate(self, X):
-        """(F (B, 3), G (B, M)) of a population matrix: the objectives and constraints of the
+        """(F (B, n_obj), G (B, M)) of a population matrix: the objectives and constraints of the
         full assessment, estimated, each constraint eased by the error measured when the screen
         was made (:meth:`_calibrate`)."""
         F, G, _ = self._score(X)
@@ -142,7 +142,8 @@ class Screen:
         switch = screen_figures.switch_on(rows, f, self.high, tol0, bleed["c_plus"][owner],
                                           self.frequency, b.conditions.safe_voltage)
         fig = screen_figures.check_figures(b, ro, rows, f, switch, tr, cap, feed, bleed["power"],
-                                           choice["hv_current"], tol0)
+                                           choice["hv_current"], tol0,
+                                           pt.class_working[bleed["class"]])
         ratios = self._named(check_table.evaluate(fig), ro.prefix[position])
         # per design: worst over positions; a position the screen could not solve fails
         by_design = {name: _per_design(np.where(failed, np.nan, values), owner, count)
@@ -170,8 +171,12 @@ class Screen:
         else:
             none = np.full((count, 1), np.nan)
             figures["attack_time"] = figures["recovery_time"] = none
-        regulation, G = b.constraint_values(figures, tr["buildable"], cap["made"], by_design)
-        return b.objective_values(cost, regulation, stress), G, by_design
+        G = b.constraint_values(figures, tr["buildable"], cap["made"], by_design)
+        life = screen_figures.shortest_life(f, rows, ro, pt.series, cap["ripple"][owner],
+                                            b.conditions)
+        life = -_per_design(-np.where(failed, np.nan, life), owner, count)  # worst position
+        figs = b.objective_figures(cost, figures["static_drop"], stress, life)
+        return b.objective_values(figs), G, by_design
 
     @staticmethod
     def _named(columns, prefixes):

@@ -204,6 +204,12 @@ class Conditions(Strict):
     sag_hold: R("sag_step") = 0.6
     sag_release: R("sag_step") = 0.8
     capacitor_series: str = "generic-105C-radial"
+    #: derating (common practice, no source): an electrolytic's highest working voltage at the
+    #: worst corner at most this fraction of its rating (its surge within the surge rating)
+    capacitor_voltage_derating: Annotated[Fraction, Field(gt=0, le=1)] = 0.90
+    #: derating (common practice, no source): a resistor's dissipation at most this fraction of
+    #: its rating ("run power resistors at about half their rating")
+    resistor_power_derating: Annotated[Fraction, Field(gt=0, le=1)] = 0.50
 
 
 class Design(Strict):

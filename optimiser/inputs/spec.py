@@ -239,7 +239,10 @@ class Resolution(Strict):
 
     cost: float = Field(default=0.1, ge=0)
     regulation: Annotated[Fraction, Field(ge=0)] = 0.001
+    sag_error: Annotated[Fraction, Field(ge=0)] = 0.001
     rectifier_stress: float = Field(default=0.005, ge=0)
+    #: in decades of hours (the life objective is searched as -log10 of its hours): 0.01 ~ 2.3 %
+    life: float = Field(default=0.01, ge=0)
 
 
 class SearchSettings(Strict):
@@ -268,6 +271,10 @@ class Spec(Strict):
     margins: Margins = Margins()
     costs: Costs = Costs()
     search: SearchSettings = SearchSettings()
+    #: 2-4 objectives to minimise (life is maximised); default cost, regulation (sag_error with
+    #: a sag target), rectifier_stress (:mod:`optimiser.codesign.objective_table`)
+    objectives: Optional[list[Literal["cost", "regulation", "sag_error", "rectifier_stress",
+                                      "life"]]] = Field(default=None, min_length=2, max_length=4)
     #: the user's own parts files (same layout as optimiser/parts/data/*.yaml), relative to this file
     parts_files: list[str] = []
     #: the user's own folder of transformer data (cores, steels, wire, prices), relative to it
@@ -277,6 +284,13 @@ class Spec(Strict):
     @classmethod
     def _unique(cls, nodes):
         return unique_names(nodes)
+
+    @field_validator("objectives")
+    @classmethod
+    def _distinct_objectives(cls, names):
+        if names is not None and len(set(names)) != len(names):
+            raise ValueError("each objective may be named once")
+        return names
 
     @property
     def sag_node(self) -> int:
@@ -304,6 +318,8 @@ def _cross_problems(spec: Spec):
     if len(names) > 1 and spec.choices.filter is None:
         out.append((("choices",), "filter: required key is missing (capacitors for the nodes "
                     "after the reservoir)"))
+    if spec.objectives and "sag_error" in spec.objectives and spec.sag is None:
+        out.append((("objectives",), "sag_error needs a sag target (a sag: section)"))
     if spec.sag is not None and spec.sag.node is not None and spec.sag.node not in names:
         out.append((("sag", "node"), f"no node is named '{spec.sag.node}'; nodes: "
                     + ", ".join(names)))

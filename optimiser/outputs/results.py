@@ -3,9 +3,14 @@ summary a builder can read. Written whole or not at all.
 
 Layout of a results folder::
 
-    pareto.csv           one row per front design: its choices, objectives and every figure
+    pareto.csv           one row per listed design (the union of the rectifier branches'
+                         fronts; ``on_front`` marks the overall front): choices, every objective
+                         (units in the header), sag and life figures, every other figure
+    branches.csv         one row per rectifier branch: feasible or what binds, its cheapest,
+                         closest-to-target and longest-life designs, premium, sag, life
     designs/<id>.yaml    each front design as a design file `railwright evaluate` accepts
-    front.png            the front in pairwise projections, coloured by the third objective
+    front.png            the listed designs in pairwise projections, branches marked
+    sag_life.png         sag depth against the shortest part life, branches marked
     bplus.png            B+ and sag of a few representative designs
     summary.md           the spec, the front's range, the recommended design and why, its order
                          sheet, parts list and check table, and the cautions
@@ -66,6 +71,7 @@ _CONDITION_UNITS = {
     "discharge_time_limit": lambda v: _q(v, "s"), "sag_hold": lambda v: _q(v, "s"),
     "sag_release": lambda v: _q(v, "s"), "safe_voltage": lambda v: _q(v, "V"),
     "capacitor_series": str,
+    "capacitor_voltage_derating": _percent, "resistor_power_derating": _percent,
 }
 
 
@@ -195,9 +201,15 @@ def design_yaml(design, header: str = "") -> str:
 
 
 def front_ids(optimisation) -> list[str]:
-    """Identifiers of the front designs, in front order (cheapest first): d01, d02, ..."""
-    width = max(2, len(str(len(optimisation.front))))
-    return [f"d{i + 1:0{width}d}" for i in range(len(optimisation.front))]
+    """Identifiers of the listed designs (:attr:`Optimisation.listed`, cheapest first):
+    d01, d02, ..."""
+    count = len(optimisation.listed)
+    width = max(2, len(str(count)))
+    return [f"d{i + 1:0{width}d}" for i in range(count)]
+
+
+def _idmap(opt, ids) -> dict:
+    return dict(zip((int(r) for r in opt.listed), ids))
 
 
 def _pct(x):
@@ -205,33 +217,41 @@ def _pct(x):
 
 
 def _range_table(opt) -> list[str]:
-    F = opt.scored.F[opt.front]
-    rows = [("cost", "cost units", lambda v: f"{v:.1f}"),
-            ("regulation", "sag off target" if opt.spec.sag else "static sag", _pct),
-            ("rectifier_stress", "worst actual/rated", lambda v: f"{v:.3f}")]
-    out = ["| objective | meaning | best | worst |", "|---|---|---|---|"]
-    for i, (name, meaning, fmt) in enumerate(rows):
-        out.append(f"| {name} | {meaning} | {fmt(F[:, i].min())} | {fmt(F[:, i].max())} |")
+    from optimiser.codesign.objective_table import OBJECTIVES
+
+    fr = opt.scored.frame.iloc[opt.front]
+    out = ["| objective | meaning | searched | lowest | highest |", "|---|---|---|---|---|"]
+    for name, o in OBJECTIVES.items():
+        values = fr[name].to_numpy(float) * o.csv_scale
+        if not np.isfinite(values).any():
+            continue
+        searched = "yes" if name in opt.binding.objective_names else "no"
+        out.append(f"| {o.header} | {o.meaning} | {searched} | {np.nanmin(values):.4g} | "
+                   f"{np.nanmax(values):.4g} |")
     return out
 
 
 def _front_table(opt, ids) -> list[str]:
     fr = opt.scored.frame
     sag_node = opt.binding.node_names[opt.spec.sag_node]
-    out = ["| id | rectifier | HV per path | core, stack | reservoir | cost | regulation | "
-           f"{sag_node} sag | rectifier stress |", "|---|---|---|---|---|---|---|---|---|"]
+    out = ["| id | branch | rectifier | HV per path | core, stack | reservoir | cost | "
+           f"regulation ({sag_node} static sag) | per position | sag error | shortest life | "
+           "rectifier stress |", "|---|---|---|---|---|---|---|---|---|---|---|---|"]
     first = opt.binding.node_names[0]
-    for ident, row in zip(ids, opt.front):
+    on_front = set(int(r) for r in opt.front)
+    for ident, row in zip(ids, opt.listed):
         r = fr.iloc[row]
-        mark = " (recommended)" if row == opt.knee else ""
+        mark = (" (recommended)" if row == opt.knee else
+                "" if row in on_front else " (branch front only)")
+        err = "" if not np.isfinite(r["sag_error"]) else f"{100 * r['sag_error']:.2f} pp"
         out.append(
-            f"| {ident}{mark} | {r['rectifier']} | {format_quantity(r['secondary_voltage'], 'V')}"
+            f"| {ident}{mark} | {r['branch']} | {r['rectifier']} | {format_quantity(r['secondary_voltage'], 'V')}"
             f" at {format_quantity(r['hv_current_rating'], 'A')} | {r['core']}, "
             f"{format_quantity(r['stack'], 'm')} | "
             f"{format_quantity(r[f'{first}.capacitance'], 'F')} "
             f"{format_quantity(r[f'{first}.rated_voltage'], 'V')} | {r['cost']:.1f} | "
-            f"{_pct(r['regulation'])} | {_sag_text(fr, row, sag_node)} | "
-            f"{r['rectifier_stress']:.3f} |")
+            f"{_pct(r['regulation'])} | {_sag_text(fr, row, sag_node)} | {err} | "
+            f"{r['life']:.3g} h | {r['rectifier_stress']:.3f} |")
     return out
 
 
@@ -244,14 +264,15 @@ def _sag_text(fr, row, node):
 
 def _check_table(assessment) -> list[str]:
     checks = assessment.checks
-    out = ["| check | worst value | limit | ratio | verdict | limit's source |",
-           "|---|---|---|---|---|---|"]
+    out = ["| check | worst value | limit (derated) | ratio to limit | ratio to rating | verdict "
+           "| limit's source |", "|---|---|---|---|---|---|---|"]
     for c in sorted(checks, key=lambda c: -c.ratio):
         unit = c.unit if c.unit not in ("-",) else ""
         verdict = "pass" if c.passed else "FAIL"
         source = c.source if len(c.source) <= 90 else c.source[:89].rstrip() + "…"
         out.append(f"| {c.name} | {format_quantity(c.value, unit)} | "
-                   f"{format_quantity(c.limit, unit)} | {c.ratio:.3f} | {verdict} | "
+                   f"{format_quantity(c.limit, unit)} | {c.ratio:.3f} | "
+                   f"{getattr(c, 'rating_ratio', c.ratio):.3f} | {verdict} | "
                    f"{source} |")
     return out
 
@@ -275,9 +296,10 @@ def _knee_reason(opt) -> str:
     span = np.where(hi > lo, hi - lo, 1.0)
     pos = (F[k] - lo) / span
     parts = ", ".join(f"{name} {100 * p:.0f} % of the way from the front's best to its worst"
-                      for name, p in zip(("cost", "regulation", "rectifier stress"), pos))
+                      for name, p in zip((n.replace("_", " ")
+                                          for n in opt.binding.objective_names), pos))
     return ("It is the knee of the front: the design farthest inside the plane through the "
-            "three single-objective extremes, where moving towards any one objective costs the "
+            "single-objective extremes, where moving towards any one objective costs the "
             f"most in the others (Das, 1999). It sits at {parts}.")
 
 
@@ -285,31 +307,40 @@ def render_summary(opt, spec_text: str, ids=None, elapsed=None) -> str:
     """The Markdown summary of a search with a non-empty front."""
     from optimiser.outputs.ordersheet import order_sheet_for, order_sheet_markdown
 
+    from optimiser.outputs.branch_figures import branch_markdown, branch_table
+
     ids = ids or front_ids(opt)
     s = opt.spec
     res = opt.search
-    knee_id = ids[list(opt.front).index(opt.knee)]
+    knee_id = _idmap(opt, ids)[opt.knee]
     design = opt.scored.designs[opt.knee]
     assessment = opt.scored.table.assessments[opt.knee]
     out = [f"# Railwright co-design: {s.name or 'spec'}", ""]
+    out += ["## Silicon or valve?", "",
+            "One row per rectifier branch the spec allows (also `branches.csv`); figures are "
+            "of each branch's cheapest design, the premium is its cost over the cheapest "
+            "branch's cheapest. A branch that cannot meet the spec says what binds it.", ""]
+    out += branch_markdown(branch_table(opt, _idmap(opt, ids))) + [""]
     out += ["## The spec", "", "```yaml", spec_text.rstrip(), "```", ""]
     out += ["## The search", "",
             f"NSGA-II, population {res.X.shape[0]}, {res.generations} generations, seed "
             f"{res.seed}: {res.evaluations} designs "
             f"evaluated, {int(opt.scored.feasible.sum())} of the final population's "
             f"{len(opt.scored.designs)} distinct designs meet every constraint, and "
-            f"{len(opt.front)} of those form the front (differences below cost "
-            f"{s.search.resolution.cost:g}, regulation {_pct(s.search.resolution.regulation)}, "
-            f"stress {s.search.resolution.rectifier_stress:g} are not told apart)."
+            f"{len(opt.front)} of those form the overall front of "
+            f"{', '.join(opt.binding.objective_names)}, the non-dominated set of the "
+            f"{len(opt.listed)} designs on the rectifier branches' own fronts (differences "
+            "below the spec's search resolution are not told apart)."
             + (f" Wall time {elapsed:.1f} s." if elapsed is not None else ""), ""]
     out += ["## The front's range", ""] + _range_table(opt) + [""]
-    out += ["Every front design (ordered by cost; each is `designs/<id>.yaml`, re-checked with "
-            "`railwright evaluate designs/<id>.yaml`):", ""] + _front_table(opt, ids) + [""]
+    out += ["Every listed design (ordered by cost; each is `designs/<id>.yaml`, re-checked "
+            "with `railwright evaluate designs/<id>.yaml`):", ""] + _front_table(opt, ids) + [""]
     out += [f"## Recommended: {knee_id}", "", _knee_reason(opt), ""]
     r = opt.scored.frame.iloc[opt.knee]
     out += [f"- rectifier: {r['rectifier']}",
-            f"- cost {r['cost']:.1f} cost units, regulation {_pct(r['regulation'])}, rectifier "
-            f"stress {r['rectifier_stress']:.3f}", ""]
+            f"- cost {r['cost']:.1f} cost units, regulation (static sag) "
+            f"{_pct(r['regulation'])}, rectifier stress {r['rectifier_stress']:.3f}, shortest "
+            f"part life {r['life']:.3g} h", ""]
     out += ["### Check table", ""] + _check_table(assessment) + [""]
     out += ["### Parts list", ""] + _parts_table(opt.binding.parts_list(design)) + [""]
     if design.transformer_design is not None:
@@ -357,7 +388,15 @@ def _figure(width, height):
 
 
 def plot_front(opt, path, ids):
-    """The front in the three pairwise projections, each coloured by the remaining objective."""
+    """The listed designs in the pairwise projections of the searched objectives, each point's
+    rectifier branch marked (:func:`optimiser.outputs.branch_figures.plot_front_branches`)."""
+    from optimiser.outputs.branch_figures import plot_front_branches
+
+    plot_front_branches(opt, path, _idmap(opt, ids))
+
+
+def _plot_front_by_objective(opt, path, ids):
+    """(Earlier scheme, kept for three objectives) coloured by the remaining objective."""
     F = opt.scored.F
     front = opt.front
     labels = ("cost [cost units]", "regulation [%]", "rectifier stress [-]")
@@ -397,8 +436,8 @@ def representatives(opt) -> list[int]:
     least stressed (rows of ``scored``, without repeats)."""
     F = opt.scored.F
     front = list(opt.front)
-    picks = [front[int(np.argmin(F[front, 0]))], opt.knee, front[int(np.argmin(F[front, 1]))],
-             front[int(np.argmin(F[front, 2]))]]
+    picks = [front[int(np.argmin(F[front, 0]))], opt.knee] + [
+        front[int(np.argmin(F[front, j]))] for j in range(1, F.shape[1])]
     return list(dict.fromkeys(p for p in picks if p is not None))
 
 
@@ -418,7 +457,7 @@ def plot_bplus(opt, path, ids, detail):
         idle = [n["idle_voltage"] for n in first.nodes]
         full = [n["full_power_voltage"] for n in first.nodes]
         lowest += full
-        label = ids[list(opt.front).index(row)]
+        label = _idmap(opt, ids)[row]
         colour = f"C{i}"
         ax.bar(x + (2 * i) * width, idle, width, color=colour, label=f"{label} idle")
         ax.bar(x + (2 * i + 1) * width, full, width, color=colour, alpha=0.45, hatch="//",
@@ -445,7 +484,7 @@ def plot_bplus(opt, path, ids, detail):
         if "sag_time" in curves:
             ax2.plot(np.asarray(curves["sag_time"]) * 1e3,
                      np.asarray(curves["sag_voltage"])[:, k],
-                     label=ids[list(opt.front).index(row)])
+                     label=_idmap(opt, ids)[row])
     ax2.set_xlabel("time from the full-power step [ms]")
     ax2.set_ylabel(f"{names[k]} B+ [V]")
     ax2.set_title(f"Sag at {names[k]}: full power, then idle again")
@@ -491,13 +530,22 @@ def write_results(opt, out_dir, spec_text: str, elapsed=None) -> Path:
     os.umask(umask)
     os.chmod(tmp, 0o777 & ~umask)  # a results folder, not a private temporary one
     try:
+        from optimiser.codesign.objective_table import csv_frame
+        from optimiser.outputs.branch_figures import branch_table, plot_sag_life
+
         ids = front_ids(opt)
-        front = opt.scored.frame.iloc[opt.front].copy()
+        idmap = _idmap(opt, ids)
+        on_front = set(int(r) for r in opt.front)
+        front = opt.scored.frame.iloc[opt.listed].copy()
         front.insert(0, "id", ids)
-        front.insert(1, "recommended", [row == opt.knee for row in opt.front])
-        front.to_csv(tmp / "pareto.csv", index=False)
+        front.insert(1, "recommended", [row == opt.knee for row in opt.listed])
+        front.insert(2, "on_front", [int(row) in on_front for row in opt.listed])
+        csv_frame(front).to_csv(tmp / "pareto.csv", index=False)
+        import pandas as pd
+
+        pd.DataFrame(branch_table(opt, idmap)).to_csv(tmp / "branches.csv", index=False)
         (tmp / "designs").mkdir()
-        for ident, row in zip(ids, opt.front):
+        for ident, row in zip(ids, opt.listed):
             r = opt.scored.frame.iloc[row]
             header = (f"Pareto design {ident} of spec {opt.spec.name or 'spec'}, found by "
                       "railwright optimise.\nInvented example output; not a known commercial "
@@ -511,6 +559,7 @@ def write_results(opt, out_dir, spec_text: str, elapsed=None) -> Path:
         detail = dict(zip(rows, detailed))
         plot_front(opt, tmp / "front.png", ids)
         plot_bplus(opt, tmp / "bplus.png", ids, detail)
+        plot_sag_life(opt, tmp / "sag_life.png", idmap)
         (tmp / "summary.md").write_text(render_summary(opt, spec_text, ids, elapsed),
                                         encoding="utf-8")
         _swap_into_place(tmp, target)

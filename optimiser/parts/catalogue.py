@@ -25,6 +25,7 @@ too).
 from __future__ import annotations
 
 import difflib
+import math
 from functools import lru_cache
 from pathlib import Path
 from typing import Iterable
@@ -49,6 +50,7 @@ from optimiser.parts.models import (
 )
 
 __all__ = [
+    "resistor_element_voltage",
     "CatalogueError",
     "PartNotFound",
     "MissingRating",
@@ -270,6 +272,17 @@ def _merged(kind: str, files: tuple) -> _Catalogue:
     for path in files:
         _merge(catalogue, path, override=True)
     return catalogue
+
+
+def resistor_element_voltage(power) -> float:
+    """Limiting element voltage of the smallest catalogue resistor class rated for ``power``
+    (the largest class if none is). [V] (NaN where unknown). A resistor's working voltage is
+    the lesser of this and sqrt(P R) (:mod:`optimiser.assessment.checks`)."""
+    if power is None or not math.isfinite(power):
+        return float("nan")
+    classes = sorted(load_catalogue("resistor").values(), key=lambda p: p.power)
+    fitting = [c for c in classes if c.power >= power * (1 - 1e-9)] or classes[-1:]
+    return float(fitting[0].max_working_voltage)
 
 
 def load_catalogue(kind: str, extra_files: Iterable = ()) -> dict[str, Part]:

@@ -46,6 +46,8 @@ class CheckColumn:
     minimum: bool
     source: list
     rectifier: bool = False
+    #: (B,) the limit is the rating times this (1: no derating); ratio to the rating = ratio * it
+    derating: np.ndarray = 1.0
 
     @cached_property
     def ratio(self) -> np.ndarray:
@@ -83,21 +85,33 @@ class Check:
     ratio: float
     passed: bool
     source: str
+    #: the limit is the rating times this (1: no derating)
+    derating: float = 1.0
+
+    @property
+    def rating_ratio(self) -> float:
+        """value / the rating itself (the ratio to the derated limit times the derating)."""
+        return self.ratio * self.derating
 
     def to_dict(self) -> dict:
         return {"name": self.name, "what": self.what, "unit": self.unit, "value": self.value,
                 "limit": self.limit, "ratio": self.ratio, "passed": self.passed,
-                "source": self.source}
+                "source": self.source, "derating": self.derating,
+                "rating_ratio": self.rating_ratio}
 
 
-def column(name, what, unit, value, limit, source, *, minimum=False, rectifier=False):
-    """Build a :class:`CheckColumn`, broadcasting value, limit and source over the batch."""
+def column(name, what, unit, value, limit, source, *, minimum=False, rectifier=False,
+           derating=1.0):
+    """Build a :class:`CheckColumn`, broadcasting value, limit and source over the batch;
+    ``limit`` is the rating, the check's limit ``derating`` times it."""
     value = np.asarray(value, dtype=float)
-    limit = np.broadcast_to(np.asarray(limit, dtype=float), value.shape).copy()
+    limit = np.broadcast_to(np.asarray(limit, dtype=float) * derating, value.shape).copy()
     if isinstance(source, str):
         source = [source] * value.shape[0]
     return CheckColumn(name=name, what=what, unit=unit, value=value, limit=limit,
-                       minimum=minimum, source=list(source), rectifier=rectifier)
+                       minimum=minimum, source=list(source), rectifier=rectifier,
+                       derating=np.broadcast_to(np.asarray(derating, float),
+                                                value.shape).copy())
 
 
 def rectifier_stress(columns) -> np.ndarray:

@@ -1,6 +1,8 @@
-"""A search run's front as the report reads it from a results folder: ``pareto.csv``, the
-design files under ``designs/`` and ``summary.md``; which design is recommended and why, its
-extremes, and which designs get a full section on the page."""
+"""A search run's front as the report reads it from a results folder: ``pareto.csv`` (its unit
+headers read back through :mod:`optimiser.codesign.objective_table`), the design files under
+``designs/``, ``spec.yaml`` (which objectives were searched), ``branches.csv`` and
+``summary.md``; which design is recommended and why, its extremes, and which designs get a full
+section on the page."""
 
 from __future__ import annotations
 
@@ -14,11 +16,14 @@ import numpy as np
 #: sections for the recommended design and the extremes of each objective only.
 FULL_SECTIONS = 8
 
-OBJECTIVES = ("cost", "regulation", "rectifier_stress")
-_OBJECTIVE_LABEL = {"cost": "cost [cost units]", "regulation": "regulation [%]",
-                    "rectifier_stress": "rectifier stress [-]"}
-_EXTREME_LABEL = {"cost": "cheapest", "regulation": "best regulation",
-                  "rectifier_stress": "least rectifier stress"}
+from optimiser.codesign.objective_table import OBJECTIVES as _TABLE, from_csv_frame, names_for
+
+#: Every objective a run may carry (:mod:`optimiser.codesign.objective_table`).
+OBJECTIVES = tuple(_TABLE)
+#: The objectives of a run that does not say which it searched.
+DEFAULT_SEARCHED = ("cost", "regulation", "rectifier_stress")
+_OBJECTIVE_LABEL = {n: o.label for n, o in _TABLE.items()}
+_EXTREME_LABEL = {n: o.best for n, o in _TABLE.items()}
 
 
 class ResultsError(ValueError):
@@ -41,6 +46,10 @@ class Front:
         Row of the recommended design.
     reason : str or None
         Why it is recommended, in the run's own words where it gives them.
+    searched : tuple of str
+        The objectives the run searched (its spec's), in order.
+    branches : list of dict
+        ``branches.csv``'s rows (empty where the run wrote none).
     """
 
     frame: object
@@ -48,10 +57,31 @@ class Front:
     design_files: list
     recommended: int | None
     reason: str | None
+    searched: tuple = DEFAULT_SEARCHED
+    branches: list = ()
 
     def objective(self, name) -> np.ndarray:
-        """One objective per row: cost [cost units], regulation [-], rectifier_stress [-]."""
+        """One objective's figure per row, in the frame's units (fractions for regulation and
+        sag_error, hours for life)."""
         return self.frame[name].to_numpy(dtype=float)
+
+    def search_value(self, name) -> np.ndarray:
+        """One objective as the search minimised it (life as -log10 of its hours)."""
+        return _TABLE[name].search_value(self.objective(name))
+
+    @property
+    def branch(self) -> np.ndarray:
+        """Each row's rectifier branch ("" where the run does not say)."""
+        if "branch" not in self.frame.columns:
+            return np.array([""] * len(self.frame), object)
+        return self.frame["branch"].fillna("").astype(str).to_numpy(object)
+
+    @property
+    def on_front(self) -> np.ndarray:
+        """Whether each row is on the overall front (else on its branch's front only)."""
+        if "on_front" not in self.frame.columns:
+            return np.ones(len(self.frame), bool)
+        return np.array([str(v).strip().lower() in _TRUE for v in self.frame["on_front"]])
 
 
 _ID_COLUMNS = ("id", "design_id", "design", "name", "design_file", "file", "label")
@@ -80,11 +110,12 @@ def read_front(result_dir) -> Front:
     if not csv.is_file():
         raise ResultsError(f"{root}: no pareto.csv (is this a folder written by "
                            "railwright optimise?)")
-    frame = pd.read_csv(csv)
-    missing = [c for c in OBJECTIVES if c not in frame.columns]
+    frame = from_csv_frame(pd.read_csv(csv))  # unit headers back to frame names and units
+    searched = _searched(root, frame)
+    missing = [c for c in searched if c not in frame.columns]
     if missing:
         raise ResultsError(f"{csv}: missing column(s) {', '.join(missing)}; the front needs "
-                           f"{', '.join(OBJECTIVES)}")
+                           f"{', '.join(searched)}")
     designs = root / "designs"
     stems = {p.stem: p for p in sorted(designs.glob("*.yaml"))} if designs.is_dir() else {}
 
@@ -108,12 +139,28 @@ def read_front(result_dir) -> Front:
         id_column = named[0]
     ids = [stem(v) for v in frame[id_column]]
     files = [stems.get(i) for i in ids]
-    recommended, reason = _recommended(frame, ids, root)
+    recommended, reason = _recommended(frame, ids, root, searched)
+    table = root / "branches.csv"
+    rows = pd.read_csv(table).to_dict("records") if table.is_file() else []
     return Front(frame=frame, ids=ids, design_files=files, recommended=recommended,
-                 reason=reason)
+                 reason=reason, searched=searched, branches=rows)
 
 
-def _recommended(frame, ids, root):
+def _searched(root, frame) -> tuple:
+    """The objectives the run searched: its ``spec.yaml``'s; where that cannot be read, the
+    default three (sag_error in place of regulation where the run has sag errors)."""
+    from optimiser.formats.yamlfile import DesignError
+    from optimiser.inputs.spec import load_spec
+
+    try:
+        return tuple(names_for(load_spec(root / "spec.yaml")))
+    except (DesignError, OSError):
+        if "sag_error" in frame.columns and frame["sag_error"].notna().any():
+            return ("cost", "sag_error", "rectifier_stress")
+        return DEFAULT_SEARCHED
+
+
+def _recommended(frame, ids, root, searched=DEFAULT_SEARCHED):
     """(row, reason): the flagged row, else the one summary.md recommends, else the knee."""
     said = _summary_recommendation(root, ids)
     for c in _FLAG_COLUMNS:
@@ -132,7 +179,7 @@ def _recommended(frame, ids, root):
         from optimiser.codesign.nsga import knee
     except ImportError:
         return None, None
-    F = frame[list(OBJECTIVES)].to_numpy(dtype=float)
+    F = np.column_stack([_TABLE[n].search_value(frame[n].to_numpy(float)) for n in searched])
     if len(F) == 0 or not np.all(np.isfinite(F)):
         return None, None
     return int(knee(F)), ("the knee of the front, computed by the report (the run records no "
@@ -177,10 +224,10 @@ def _section_rows(front: Front) -> list:
         chosen = list(range(n))
     else:
         chosen = [] if front.recommended is None else [front.recommended]
-        for name in OBJECTIVES:
+        for name in front.searched:
             values = front.objective(name)
             if np.any(np.isfinite(values)):
-                row = int(np.nanargmin(values))
+                row = int(np.argmin(front.search_value(name)))
                 if row not in chosen:
                     chosen.append(row)
     return [r for r in chosen if front.design_files[r] is not None]
@@ -188,8 +235,9 @@ def _section_rows(front: Front) -> list:
 
 def _extremes(front: Front) -> dict:
     out = {}
-    for name in OBJECTIVES:
+    for name in front.searched:
         values = front.objective(name)
         if np.any(np.isfinite(values)):
-            out.setdefault(int(np.nanargmin(values)), []).append(_EXTREME_LABEL[name])
+            out.setdefault(int(np.argmin(front.search_value(name))), []).append(
+                _EXTREME_LABEL[name])
     return out

@@ -14,9 +14,11 @@ from pathlib import Path
 
 import numpy as np
 
-from optimiser.outputs.report.front import OBJECTIVES, Front, _extremes, _section_rows, read_front
+from optimiser.codesign.objective_table import OBJECTIVES
+from optimiser.outputs.branch_figures import branch_markdown
+from optimiser.outputs.report.front import Front, _extremes, _section_rows, read_front
 from optimiser.outputs.report.markup import _Cell, _e, _markdown_html, _num, _slug, _table
-from optimiser.outputs.report.plots import _figure_html, _front_plot
+from optimiser.outputs.report.plots import _csv_values, _figure_html, _front_plot, _sag_life_plot
 from optimiser.outputs.report.sections import _design_section
 
 
@@ -83,10 +85,7 @@ def _why(front: Front) -> str:
     if r is None:
         return ("<p>The run records no recommended design. Every point links to its design; "
                 "compare them in the table below.</p>")
-    cost, reg, stress = (front.objective(n) for n in OBJECTIVES)
-    facts = (f"It costs {cost[r]:.1f} cost units (cheapest on the front {np.nanmin(cost):.1f}), "
-             f"regulates to {100 * reg[r]:.2f} % (best {100 * np.nanmin(reg):.2f} %) and loads "
-             f"its rectifier to a stress of {stress[r]:.2f} (least {np.nanmin(stress):.2f}).")
+    facts = "It has " + ", ".join(_objective_fact(front, n, r) for n in front.searched) + "."
     if front.reason:
         why = f" Why, in the run's words: \u201c{_e(front.reason)}\u201d"
     else:
@@ -94,6 +93,20 @@ def _why(front: Front) -> str:
                "of one objective buys little in the others.")
     return (f"<p><strong>Recommended: <a href=\"#{_e(_anchor(front.ids[r]))}\">"
             f"{_e(front.ids[r])}</a>.</strong> {_e(facts)}{why}</p>")
+
+
+def _objective_fact(front: Front, name, r) -> str:
+    """One objective of row r beside the front's best, in pareto.csv's units."""
+    o = OBJECTIVES[name]
+    values = _csv_values(front, name)
+    best = values[int(np.argmin(front.search_value(name)))]
+    return f"{o.label} {values[r]:.4g} (front's {o.best}: {best:.4g})"
+
+
+def _objectives_text(front: Front, r) -> str:
+    return ", ".join(f"{OBJECTIVES[n].label} {_csv_values(front, n)[r]:.4g}"
+                     for n in OBJECTIVES if n in front.frame.columns
+                     and np.isfinite(front.objective(n)[r]))
 
 
 def _anchor(design_id) -> str:
@@ -107,22 +120,24 @@ def _front_table(front: Front, sections, link_base: Path) -> str:
     extremes = _extremes(front)
     extra = [(c, "[V]") for c in ("secondary_voltage",) if c in frame.columns]
     text_extra = [c for c in ("rectifier",) if c in frame.columns]
-    heads = ["design", "role", "cost [cost units]", "regulation [%]", "rectifier stress [-]"]
+    shown = [n for n in OBJECTIVES if n in frame.columns and np.isfinite(front.objective(n)).any()]
+    heads = ["design", "role"] + [OBJECTIVES[n].header + (" (searched)" if n in
+                                                                    front.searched else "")
+                                            for n in shown] + ["branch"]
     heads += [f"{c.replace('_', ' ')} {u}" for c, u in extra] + text_extra + ["design file"]
     rows, ids = [], []
+    values = {n: _csv_values(front, n) for n in shown}
     for i, design_id in enumerate(front.ids):
         role = (["recommended"] if i == front.recommended else []) + extremes.get(i, [])
+        role += [] if front.on_front[i] else ["its branch's front only"]
         anchor = _anchor(design_id)
         link = f'<a href="#{_e(anchor)}">{_e(design_id)}</a>' if i in sections else _e(design_id)
         f = front.design_files[i]
         file_link = (f'<a href="{_e(Path(os.path.relpath(f, link_base)).as_posix())}">'
                      f"{_e(f.name)}</a>" if f is not None else "missing")
-        row = [_Cell(link, design_id), ", ".join(role) or "\u2013",
-               _Cell(_num(front.objective("cost")[i], 2), front.objective("cost")[i]),
-               _Cell(_num(100 * front.objective("regulation")[i], 2),
-                     front.objective("regulation")[i]),
-               _Cell(_num(front.objective("rectifier_stress")[i], 2),
-                     front.objective("rectifier_stress")[i])]
+        row = [_Cell(link, design_id), ", ".join(role) or "\u2013"]
+        row += [_Cell(_num(values[n][i], 4 if n == "life" else 2), values[n][i]) for n in shown]
+        row.append(str(front.branch[i]))
         row += [_Cell(_num(float(frame[c].iloc[i]), 1), float(frame[c].iloc[i])) for c, _ in extra]
         row += [str(frame[c].iloc[i]) for c in text_extra]
         row.append(_Cell(file_link, f.name if f is not None else ""))
@@ -162,18 +177,32 @@ def results_report(result_dir, *, link_base=None) -> str:
     anchors = [_anchor(i) for i in front.ids]
     extremes = _extremes(front)
 
-    body = ['<section class="front" id="front"><h2>The Pareto front</h2>',
-            "<p>Every design on the front, in the three pairwise projections of its objectives: "
-            "cost (transformer, rectifier, capacitors, chokes and resistors, in cost units), "
-            "regulation (the idle-to-full-power drop of the sag node, or its distance from "
-            "the spec's sag target, in % of idle B+) and rectifier stress (the worst ratio of "
-            "a rectifier figure to its rating). Lower is better on every axis. Each point links "
-            "to its design.</p>",
-            _figure_html(_front_plot(front, anchors, "front"), "The front in pairwise "
-                         "projections. Star: the recommended design; open square, diamond and "
-                         "triangle: the cheapest, best-regulated and least-stressed designs.",
-                         "front-plot"),
-            _why(front)]
+    body = []
+    if front.branches:
+        body += ['<section class="branches" id="branches"><h2>Silicon or valve?</h2>',
+                 "<p>One row per rectifier option the spec allows (<code>branches.csv</code>), "
+                 "each with its own front found by the search: figures of each branch's "
+                 "cheapest design; the premium is its cost over the cheapest branch's cheapest. "
+                 "A branch that cannot meet the spec says what binds it.</p>",
+                 _markdown_html("\n".join(branch_markdown(front.branches)), top=3)]
+        if "life" in front.frame.columns and np.isfinite(front.objective("life")).any():
+            body.append(_figure_html(_sag_life_plot(front, anchors, "sag-life", _target(root)),
+                                     "Sag depth against the shortest part life (the first "
+                                     "part to wear out: an electrolytic or the rectifier "
+                                     "valve) over every listed design; marker shape by kind "
+                                     "of rectifier, colour by branch, hollow where a design is "
+                                     "on its branch's front only.", "sag-life-plot"))
+        body.append("</section>")
+    body += ['<section class="front" id="front"><h2>The Pareto front</h2>',
+             "<p>Every listed design (the union of the rectifier branches' fronts) in the "
+             "pairwise projections of the searched objectives: "
+             + "; ".join(f"{n} ({OBJECTIVES[n].meaning})" for n in front.searched)
+             + ". Lower is better on every axis but life. Each point links to its design.</p>",
+             _figure_html(_front_plot(front, anchors, "front"), "The front in pairwise "
+                          "projections. Marker shape: kind of rectifier; colour: branch; "
+                          "hollow: on its branch's front only. Star: the recommended design; "
+                          "ringed: the best design in one objective.", "front-plot"),
+             _why(front)]
     if len(chosen) < len(front.ids):
         body.append(f"<p>The front holds {len(front.ids)} designs; the sections below cover "
                     "the recommended design and the extremes of each objective. Every design "
@@ -186,7 +215,8 @@ def results_report(result_dir, *, link_base=None) -> str:
                     f"{_markdown_html(summary.read_text(encoding='utf-8'), top=4)}</details>")
     body.append("</section>")
 
-    toc = [("front", "The Pareto front")]
+    toc = ([("branches", "Silicon or valve?")] if front.branches else []) + [
+        ("front", "The Pareto front")]
     for r in order:
         path = front.design_files[r]
         roles = (["recommended"] if r == front.recommended else []) + extremes.get(r, [])
@@ -202,9 +232,7 @@ def results_report(result_dir, *, link_base=None) -> str:
             toc.append((anchors[r], f"Design {front.ids[r]} (unreadable)"))
             continue
         a = assess(design, detail=True)
-        extra = [("objectives", f"cost {front.objective('cost')[r]:.2f} cost units, regulation "
-                                f"{100 * front.objective('regulation')[r]:.2f} %, rectifier "
-                                f"stress {front.objective('rectifier_stress')[r]:.2f}")]
+        extra = [("objectives", _objectives_text(front, r))]
         body.append(_design_section(
             design, a, anchors[r], f"Design {front.ids[r]}", badge=badge, extra=extra,
             design_file=path, subtitle=f'<a href="#front">back to the front</a> \u00b7 '
@@ -213,9 +241,21 @@ def results_report(result_dir, *, link_base=None) -> str:
                                                            if roles else "")))
     title = f"Railwright run: {root.resolve().name}"
     count = len(front.ids)
-    lede = (f"{count} Pareto design{'s' if count != 1 else ''} of cost, regulation and "
-            "rectifier stress, and what each looks like on the bench.")
+    lede = (f"{count} listed design{'s' if count != 1 else ''} (the rectifier branches' fronts) "
+            f"of {', '.join(front.searched)}, and what each looks like on the bench.")
     return _page(title, lede, toc, "\n".join(body))
+
+
+def _target(root):
+    """The run's sag target (a fraction), from its spec.yaml; None without one."""
+    from optimiser.formats.yamlfile import DesignError
+    from optimiser.inputs.spec import load_spec
+
+    try:
+        sag = load_spec(Path(root) / "spec.yaml").sag
+    except (DesignError, OSError):
+        return None
+    return None if sag is None else sag.target
 
 
 def write_report(html_text: str, path) -> Path:

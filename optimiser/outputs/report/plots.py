@@ -16,7 +16,9 @@ import re
 
 import numpy as np
 
-from optimiser.outputs.report.front import OBJECTIVES, _OBJECTIVE_LABEL, Front, _extremes
+from optimiser.codesign.objective_table import OBJECTIVES as _TABLE
+from optimiser.outputs.branch_figures import SAG_LABEL, draw_branches
+from optimiser.outputs.report.front import _OBJECTIVE_LABEL, Front, _extremes
 from optimiser.outputs.report.markup import _e, _ms, _q
 
 # ---- colours: plain, distinct in colour and (by line style) in black and white
@@ -302,26 +304,41 @@ def _switch_on_plot(design, a, key, width) -> str:
     return _svg(fig, key, "switch-on B+ trajectory per node")
 
 
+def _csv_values(front: Front, name) -> np.ndarray:
+    """An objective in the units pareto.csv and the axes give it (% for regulation, ...)."""
+    return front.objective(name) * _TABLE[name].csv_scale
+
+
+def _branch_points(axk, x, y, front: Front, urls, size=22):
+    """The points with each one's rectifier branch marked (the one marker scheme,
+    :func:`optimiser.outputs.branch_figures.draw_branches`), each a link to its design."""
+    for art, idx in draw_branches(axk, x, y, front.branch, front.on_front, size=size):
+        art.set_urls([urls[i] for i in idx])
+
+
+def _legend_below(fig, ax):
+    handles, labels = ax.get_legend_handles_labels()
+    unique = dict(zip(labels, handles))
+    fig.legend(unique.values(), unique.keys(), loc="lower center",
+               ncol=min(len(unique), 4), fontsize=7)
+
+
 @_styled
 def _front_plot(front: Front, anchors, key) -> str:
-    values = {name: front.objective(name) for name in OBJECTIVES}
-    values["regulation"] = 100 * values["regulation"]
-    pairs = (("cost", "regulation"), ("cost", "rectifier_stress"),
-             ("regulation", "rectifier_stress"))
-    fig, ax = _figure(WIDE * 1.1, 3.6, 1, 3, bottom=0.95, top=0.15)
+    names = list(front.searched)
+    values = {name: _csv_values(front, name) for name in names}
+    pairs = [(a, b) for i, a in enumerate(names) for b in names[i + 1:]]
+    fig, ax = _figure(WIDE * 1.1 * max(len(pairs), 3) / 3, 4.2, 1, len(pairs), bottom=1.5,
+                      top=0.15)
     urls = [f"#{a}" for a in anchors]
     extremes = _extremes(front)
-    markers = {"cheapest": "s", "best regulation": "D", "least rectifier stress": "^"}
     for axk, (x, y) in zip(ax[0], pairs):
-        pts = axk.scatter(values[x], values[y], s=22, color=BLUE, alpha=0.75,
-                          edgecolor="white", linewidth=0.5, zorder=3, label="Pareto design")
-        pts.set_urls(urls)
+        _branch_points(axk, values[x], values[y], front, urls)
         for row, labels in extremes.items():
-            for label in labels:
-                m = axk.scatter([values[x][row]], [values[y][row]], s=46, marker=markers[label],
-                                facecolor="none", edgecolor=INK, linewidth=1.1, zorder=4,
-                                label=label)
-                m.set_urls([urls[row]])
+            m = axk.scatter([values[x][row]], [values[y][row]], s=70, marker="o",
+                            facecolor="none", edgecolor=INK, linewidth=0.9, zorder=4,
+                            label="extreme of one objective (ringed)")
+            m.set_urls([urls[row]])
         r = front.recommended
         if r is not None:
             star = axk.scatter([values[x][r]], [values[y][r]], s=170, marker="*", color=OCHRE,
@@ -329,14 +346,35 @@ def _front_plot(front: Front, anchors, key) -> str:
             star.set_urls([urls[r]])
             axk.annotate(front.ids[r], (values[x][r], values[y][r]), xytext=(7, 5),
                          textcoords="offset points", fontsize=8, color=INK)
+        for name, setter in ((x, axk.set_xscale), (y, axk.set_yscale)):
+            if name == "life":
+                setter("log")
         axk.set_xlabel(_OBJECTIVE_LABEL[x])
         axk.set_ylabel(_OBJECTIVE_LABEL[y])
         axk.margins(0.12)
-    handles, labels = ax[0, 0].get_legend_handles_labels()
-    unique = dict(zip(labels, handles))
-    fig.legend(unique.values(), unique.keys(), loc="lower center", ncol=len(unique))
+    _legend_below(fig, ax[0, 0])
     tips = {}
     for i, a in enumerate(anchors):
-        tips[a] = (f"{front.ids[i]}: cost {values['cost'][i]:.1f}, regulation "
-                   f"{values['regulation'][i]:.2f} %, stress {values['rectifier_stress'][i]:.2f}")
-    return _svg(fig, key, "the Pareto front in pairwise projections", tooltips=tips)
+        unit = {n: "" if _TABLE[n].unit in ("-", "") else f" {_TABLE[n].unit}" for n in names}
+        tips[a] = (f"{front.ids[i]}: " + ", ".join(
+            f"{n.replace('_', ' ')} {values[n][i]:.4g}{unit[n]}" for n in names)
+            + (f"; {front.branch[i]}" if front.branch[i] else ""))
+    return _svg(fig, key, "the Pareto front in pairwise projections, branches marked",
+                tooltips=tips)
+
+
+@_styled
+def _sag_life_plot(front: Front, anchors, key, target=None) -> str:
+    """Sag depth against the shortest part life over the listed designs, branches marked."""
+    fig, ax = _figure(HALF * 1.3, 3.6, bottom=0.95)
+    axk = ax[0, 0]
+    urls = [f"#{a}" for a in anchors]
+    _branch_points(axk, _csv_values(front, "regulation"), front.objective("life"), front, urls,
+                   size=30)
+    if target is not None:
+        axk.axvline(100 * target, color=RED, lw=0.9, ls="--", label="sag target")
+    axk.set_yscale("log")
+    axk.set_xlabel(SAG_LABEL)
+    axk.set_ylabel(_OBJECTIVE_LABEL["life"])
+    _legend_below(fig, axk)
+    return _svg(fig, key, "sag depth against shortest part life, branches marked")

@@ -38,6 +38,12 @@ def _ratio_cell(check) -> _Cell:
                  "ratio-cell")
 
 
+def _rating_ratio_cell(check) -> _Cell:
+    """The figure over the rating itself (the ratio to the derated limit times the derating)."""
+    r = getattr(check, "rating_ratio", check.ratio)
+    return _Cell("n/a" if not np.isfinite(r) else f"{r:.2f}", r if np.isfinite(r) else None)
+
+
 def _check_q(value, unit) -> str:
     """A check's figure or rating; a dimensionless one (a fill factor) as a percentage."""
     if unit in ("-", "") and value is not None and np.isfinite(value):
@@ -73,10 +79,11 @@ def _checks_table(positions) -> str:
         a = positions[0][2]
         rows = [[_verdict(c), _Cell(_check_name(c), c.name), _Cell(_e(_check_q(c.value, c.unit)),
                  c.value), _Cell(_e(_check_q(c.limit, c.unit)), c.limit), _ratio_cell(c),
-                 _Cell(f"[{numbers[c.source]}]", numbers[c.source])]
+                 _rating_ratio_cell(c), _Cell(f"[{numbers[c.source]}]", numbers[c.source])]
                 for c in _order_checks(a.checks)]
-        return _table(["verdict", "check (what is compared)", "worst figure", "rating",
-                       "ratio [-]", "from [note]"], rows, cls="data checks") + notes
+        return _table(["verdict", "check (what is compared)", "worst figure",
+                       "limit (derated rating)", "ratio to limit [-]", "ratio to rating [-]",
+                       "from [note]"], rows, cls="data checks") + notes
     names = [p[0] for p in positions]
     by_name = [{c.name: c for c in p[2].checks} for p in positions]
     order = []
@@ -90,17 +97,19 @@ def _checks_table(positions) -> str:
         for b in by_name:
             c = b.get(name)
             if c is None:
-                row += [_Cell("does not apply", cls="na"), "", "", ""]
+                row += [_Cell("does not apply", cls="na"), "", "", "", ""]
             else:
                 row += [_verdict(c), _Cell(_e(_check_q(c.value, c.unit)), c.value),
-                        _Cell(_e(_check_q(c.limit, c.unit)), c.limit), _ratio_cell(c)]
+                        _Cell(_e(_check_q(c.limit, c.unit)), c.limit), _ratio_cell(c),
+                        _rating_ratio_cell(c)]
         notes_here = sorted({numbers[b[name].source] for b in by_name if name in b})
         row.append(_Cell(", ".join(f"[{n}]" for n in notes_here), notes_here[0]))
         rows.append(row)
     headers = (["check (what is compared)"]
-               + ["verdict", "worst figure", "rating", "ratio [-]"] * len(names)
+               + ["verdict", "worst figure", "limit (derated rating)", "ratio to limit [-]",
+                  "ratio to rating [-]"] * len(names)
                + ["from [note]"])
-    groups = [("", 1)] + [(f"position '{n}'", 4) for n in names] + [("", 1)]
+    groups = [("", 1)] + [(f"position '{n}'", 5) for n in names] + [("", 1)]
     return _table(headers, rows, cls="data checks", group_row=groups) + notes
 
 

@@ -1,0 +1,162 @@
+"""Benchmark: how close the default search comes to the best front we can find (issue 11).
+
+Run from the repository root::
+
+    python benchmarks/bench_front_quality.py                       # both demo specs
+    python benchmarks/bench_front_quality.py specs/demo-valve.yaml --reference-seeds 3
+
+For each spec it builds a *reference front*: several long runs (population and generations
+scaled up, seeds of their own) and the default runs of seeds 1-5, every feasible design of each
+run's full re-check pooled, and the non-dominated set of the pool taken, overall and within each
+rectifier branch. Then for each default run (the spec's own population and generations, seeds
+1-5) it reports
+
+- its hypervolume as a fraction of the reference front's, overall (of the run's overall front)
+  and per branch (of the run's front for that branch), with
+  ``pymoo.indicators.hv.HV(zero_to_one=True)``: the objectives are the search values (life as
+  -log10 of its hours), normalised by the reference front's fixed ideal and nadir, the reference
+  point 10 % beyond the nadir on every objective;
+- its IGD to the reference front in the same normalised space;
+- its wall time.
+
+Goal (issue 11): at least 0.98 of the reference hypervolume at the default settings, in about
+5-10 s per demo after the first-run compile.
+
+A branch whose reference front spans less than 5 % of the overall front's span in an objective
+is normalised with a span of that 5 % there (a branch of one or two designs would otherwise be
+scaled to nothing).
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT))
+
+from pymoo.indicators.hv import HV  # noqa: E402
+from pymoo.indicators.igd import IGD  # noqa: E402
+
+from optimiser.codesign import nsga  # noqa: E402
+from optimiser.codesign.run import optimise  # noqa: E402
+from optimiser.inputs.spec import load_spec  # noqa: E402
+
+DEMOS = ("specs/demo-valve.yaml", "specs/demo-silicon.yaml")
+SEEDS = (1, 2, 3, 4, 5)
+#: the reference point beyond the nadir, as a share of the normalised span
+REFERENCE_MARGIN = 0.1
+#: the least span of a branch's normalisation, as a share of the overall front's span
+LEAST_SPAN = 0.05
+
+
+def _pool(opt):
+    """(F, branch keys) of every feasible design of a run's full re-check."""
+    keep = opt.scored.feasible
+    return opt.scored.F[keep], opt.scored.frame["branch"].to_numpy(object)[keep]
+
+
+def _non_dominated(F):
+    return F[nsga.non_dominated(F)] if len(F) else F
+
+
+def _bounds(reference, least=None):
+    ideal, nadir = reference.min(axis=0), reference.max(axis=0)
+    if least is not None:
+        nadir = np.maximum(nadir, ideal + least)
+    nadir = np.where(nadir > ideal, nadir, ideal + 1e-9)
+    return ideal, nadir
+
+
+def _hv(F, ideal, nadir):
+    if not len(F):
+        return 0.0
+    ref = ideal + (1 + REFERENCE_MARGIN) * (nadir - ideal)
+    return float(HV(ref_point=ref, ideal=ideal, nadir=nadir, zero_to_one=True)(F))
+
+
+def _igd(F, reference, ideal, nadir):
+    if not len(F):
+        return float("nan")
+    scale = nadir - ideal
+    return float(IGD((reference - ideal) / scale)((F - ideal) / scale))
+
+
+def measure(path, reference_seeds, scale_population, scale_generations):
+    spec = load_spec(path)
+    s = spec.search
+    runs, pools = {}, []
+    for seed in SEEDS:
+        start = time.perf_counter()
+        opt = optimise(spec, seed=seed)
+        runs[seed] = (opt, time.perf_counter() - start)
+        pools.append(_pool(opt))
+    start = time.perf_counter()
+    for seed in reference_seeds:
+        opt = optimise(spec, seed=seed, population=s.population * scale_population,
+                       generations=s.generations * scale_generations)
+        pools.append(_pool(opt))
+    build = time.perf_counter() - start
+    F = np.vstack([p[0] for p in pools])
+    keys = np.concatenate([p[1] for p in pools])
+    reference = _non_dominated(F)
+    ideal, nadir = _bounds(reference)
+    span = nadir - ideal
+    branch_ref = {}
+    for key in dict.fromkeys(keys.tolist()):
+        ref = _non_dominated(F[keys == key])
+        branch_ref[key] = (ref, *_bounds(ref, LEAST_SPAN * span))
+    print(f"\n## {spec.name} ({', '.join(runs[1][0].binding.objective_names)})")
+    print(f"reference: {len(reference)} designs on the front of {len(F)} feasible pooled from "
+          f"{len(SEEDS)} default runs and {len(reference_seeds)} runs of population "
+          f"{s.population * scale_population} x {s.generations * scale_generations} "
+          f"generations ({build:.0f} s)")
+    hv_ref = _hv(reference, ideal, nadir)
+    branches = list(branch_ref)
+    print("| seed | wall time [s] | HV / reference | IGD | "
+          + " | ".join(f"HV / ref: {b}" for b in branches) + " |")
+    print("|---|---|---|---|" + "---|" * len(branches))
+    ratios, per_branch, times = [], {b: [] for b in branches}, []
+    for seed, (opt, wall) in runs.items():
+        front = opt.scored.F[opt.front]
+        ratio = _hv(front, ideal, nadir) / hv_ref
+        ratios.append(ratio)
+        times.append(wall)
+        cells = []
+        run_keys = opt.scored.frame["branch"].to_numpy(object)
+        for b in branches:
+            ref, lo, hi = branch_ref[b]
+            rows = np.asarray(opt.branch_fronts.get(b, []), int)
+            rows = rows[run_keys[rows] == b] if len(rows) else rows
+            r = _hv(opt.scored.F[rows], lo, hi) / _hv(ref, lo, hi)
+            per_branch[b].append(r)
+            cells.append(f"{r:.3f}")
+        print(f"| {seed} | {wall:.1f} | {ratio:.4f} | {_igd(front, reference, ideal, nadir):.4f}"
+              f" | " + " | ".join(cells) + " |")
+    print(f"| mean | {np.mean(times):.1f} | {np.mean(ratios):.4f} | | "
+          + " | ".join(f"{np.mean(per_branch[b]):.3f}" for b in branches) + " |")
+    print(f"| least | | {np.min(ratios):.4f} | | "
+          + " | ".join(f"{np.min(per_branch[b]):.3f}" for b in branches) + " |")
+    return ratios
+
+
+def main(argv=None):
+    p = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    p.add_argument("specs", nargs="*", default=list(DEMOS))
+    p.add_argument("--reference-seeds", type=int, default=3,
+                   help="long runs pooled into the reference (seeds 101, 102, ...)")
+    p.add_argument("--scale-population", type=int, default=2)
+    p.add_argument("--scale-generations", type=int, default=3)
+    args = p.parse_args(argv)
+    optimise(load_spec(args.specs[0]), population=20, generations=2)  # compile first
+    for path in args.specs:
+        measure(path, tuple(range(101, 101 + args.reference_seeds)), args.scale_population,
+                args.scale_generations)
+
+
+if __name__ == "__main__":
+    main()
