@@ -118,3 +118,39 @@ def test_no_module_over_600_lines_and_no_class_over_200():
                 long_classes.append(f"{_module_name(path)}.{node.name}: "
                                     f"{node.end_lineno - node.lineno + 1} lines")
     assert not long_modules and not long_classes, long_modules + long_classes
+
+
+def _layout_section() -> str:
+    text = (PACKAGE.parent / "DEVELOPERS.md").read_text(encoding="utf-8")
+    start = text.index("## Layout")
+    return text[start:text.index("\n## ", start + 1)]
+
+
+def test_the_contributor_guide_lists_every_module_and_only_those():
+    """DEVELOPERS.md's layout section names each module by its path under optimiser/; a row may
+    list several modules of one folder, the later ones by bare file name."""
+    import re
+
+    section = _layout_section()
+    named = set()
+    for row in section.splitlines():
+        cells = row.split("|")
+        if len(cells) < 3:
+            continue
+        folder = None
+        for item in re.findall(r"`([\w/.]+)`", cells[1]):
+            if "/" in item:
+                folder = item.rsplit("/", 1)[0]
+                named.add(item)
+            elif folder and item.endswith(".py"):
+                named.add(f"{folder}/{item}")
+            elif item.endswith(".py"):
+                named.add(item)
+    named = {n for n in named if n.endswith(".py")}
+    # the report package's modules are listed inside its row
+    report = re.search(r"`outputs/report/` \| ([^\n]*)", section).group(1)
+    named |= {f"outputs/report/{m}" for m in re.findall(r"`(\w+\.py)`", report)}
+    files = {str(p.relative_to(PACKAGE)) for p in PACKAGE.rglob("*.py")
+             if p.name != "__init__.py" or p.parent == PACKAGE}
+    assert files - named == set(), f"modules the guide does not list: {sorted(files - named)}"
+    assert named - files == set(), f"the guide lists modules that do not exist: {sorted(named - files)}"
