@@ -30,7 +30,7 @@ from optimiser.physics import ratings
 from optimiser.physics import supply
 from optimiser.physics import transients
 from optimiser.inputs.design import Design, load_design
-from optimiser.assessment.steady_state import Batch, SupplyResult, _groups, _result, figures, solve_batch
+from optimiser.assessment.steady_state import Batch, SupplyResult, _groups, _result, solve_with_figures
 
 __all__ = ["Assessment", "PairAssessment", "AssessmentTable", "assess", "assess_many",
            "CORNERS"]
@@ -206,10 +206,10 @@ def _provenance(items, what):
 
 def _assess_group(designs, detail, dynamics=True):
     batches = _corner_batches(designs)
-    solved = {}
-    for name, batch in batches.items():
-        model, waves = solve_batch(batch)
-        solved[name] = (batch, model, waves, figures(batch, model, waves))
+    solved, seen = {}, {}
+    for name, batch in batches.items():  # coinciding corners (a sampled build's) solve once
+        seen[batch.key] = seen.get(batch.key) or (batch, *solve_with_figures(batch))
+        solved[name] = seen[batch.key]
     count = len(designs)
     n_nodes = len(designs[0].nodes)
     names = [n.name for n in designs[0].nodes]

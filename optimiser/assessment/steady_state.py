@@ -117,6 +117,12 @@ class Batch:
     topology: np.ndarray
     names: list
 
+    @property
+    def key(self) -> tuple:
+        """What tells two batches of the same designs apart: EMF, capacitors and loads."""
+        v = self.values
+        return (self.peak.tobytes(), v.capacitance.tobytes(), v.load_current.tobytes())
+
     @staticmethod
     def structure_of(design: Design) -> ladder.LadderStructure:
         first = design.nodes[0].feed
@@ -210,7 +216,10 @@ class Batch:
 def _path_elements(design: Design) -> dict:
     """Per-path element counts and parameters of one design (parts resolved from the catalogue)."""
     r = design.rectifier
-    return path_elements_of(r.topology, r.diode, r.valve)
+    out = path_elements_of(r.topology, r.diode, r.valve)
+    # a sampled build's own valve (optimiser.assessment.builds) differs from its type's figure
+    out["perveance"] *= getattr(design, "_perveance_factor", 1.0)
+    return out
 
 
 def path_elements_of(topology, diode, valve) -> dict:
@@ -292,6 +301,12 @@ def solve_batch(batch: Batch, steps: int = STEPS_PER_HALF_CYCLE):
     waves = supply.periodic_steady_state(model, batch.elements, batch.peak, batch.frequency,
                                          batch.values.load_current, x0, steps=steps)
     return model, waves
+
+
+def solve_with_figures(batch: Batch):
+    """(StateSpace, Waveforms, figures) of a batch: :func:`solve_batch` then :func:`figures`."""
+    model, waves = solve_batch(batch)
+    return model, waves, figures(batch, model, waves)
 
 
 def figures(batch: Batch, model: ladder.StateSpace, waves: supply.Waveforms) -> dict:
