@@ -924,6 +924,7 @@ class Optimisation:
     front: np.ndarray
     knee: int | None
     unmet: tuple
+    robust: object = None  # the front's yield over sampled builds (codesign.robustness)
 
     @property
     def found(self) -> bool:
@@ -989,5 +990,8 @@ def optimise(spec: Spec, *, population=None, generations=None, seed=None, worker
     knee = int(front[search.knee(scored.F[front])]) if len(front) else None
     unmet = tuple(Unmet(info, float(best)) for info, best in
                   zip(binding.constraints, scored.G.min(axis=0)) if best > 0)
+    from optimiser.codesign.robustness import assess_robustness
+
     return Optimisation(spec=spec, binding=binding, search=result, scored=scored, front=front,
-                        knee=knee, unmet=unmet)
+                        knee=knee, unmet=unmet,
+                        robust=assess_robustness(binding, scored, front, spec))
