@@ -1419,6 +1419,8 @@ def results_report(result_dir, *, link_base=None) -> str:
     body.append("</section>")
 
     toc = [("front", "The Pareto front")]
+    from optimiser.outputs.yield_figures import yield_html
+
     for r in order:
         path = front.design_files[r]
         roles = (["recommended"] if r == front.recommended else []) + extremes.get(r, [])
@@ -1441,6 +1443,7 @@ def results_report(result_dir, *, link_base=None) -> str:
             design, a, anchors[r], f"Design {front.ids[r]}", badge=badge, extra=extra,
             design_file=path, subtitle=f'<a href="#front">back to the front</a> \u00b7 '
                                        f"{_e(path.name)}"))
+        body.append(yield_html(root, front.ids[r], _figure, _svg, _figure_html))
         toc.append((anchors[r], f"Design {front.ids[r]}" + (f" ({', '.join(roles)})"
                                                            if roles else "")))
     title = f"Railwright run: {root.resolve().name}"
