@@ -256,6 +256,6 @@ def assess_yield(design, count: int, seed: int = 0, tolerances=None) -> YieldRes
     YieldResult
     """
     builds = sample_builds(design, count, seed, tolerances)
-    table = assess_many(builds.designs, dynamics=False)
+    table = assess_many(builds.designs, dynamics=False, lean=True)
     return yield_of(table.ratios.reindex(columns=table.ratios.columns), node_figures(table.frame),
                     seed)

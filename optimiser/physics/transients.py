@@ -22,6 +22,7 @@ __all__ = [
     "averaged_sag_step",
     "surge_peak",
     "charge_up",
+    "charge_up_peaks",
     "discharge_times",
     "bleeder_for",
 ]
@@ -274,6 +275,19 @@ def charge_up(model, elements, peak, frequency, loads, duration, steps=TRANSIENT
     run = supply.step_response(model, elements, peak, frequency, loads, x0, np.zeros(batch),
                                duration, steps_per_half_cycle=steps, start_time=start_time)
     return run.time - start_time, node_outputs(model.node_voltage, run.state, run.drive, loads)
+
+
+def charge_up_peaks(model, elements, peak, frequency, loads, duration, steps=TRANSIENT_STEPS):
+    """The highest instantaneous voltage of each node while the supply charges from empty:
+    ``charge_up(...)[1].max(axis=1)`` (to rounding) without keeping the trajectory. [V]
+
+    Returns
+    -------
+    ndarray (B, N)
+    """
+    batch, n = model.A.shape[0], model.A.shape[1]
+    return supply.peaks(model, elements, peak, frequency, loads, np.zeros((batch, n)),
+                        np.zeros(batch), duration, model.node_voltage, steps_per_half_cycle=steps)
 
 
 def discharge_times(structure, values, start_voltages, safe_voltage, *, horizon=3600.0):
