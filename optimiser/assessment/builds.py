@@ -23,7 +23,8 @@ from scipy import stats
 from optimiser.parts import catalogue as parts
 from optimiser.inputs.design import Design, load_design
 from optimiser.inputs.tolerances import Spread, Tolerances
-from optimiser.assessment.full import assess_many
+from optimiser.assessment.full import _solve_group, assess_many
+from optimiser.assessment.steady_state import _groups
 
 __all__ = ["Builds", "sample_builds", "YieldResult", "yield_of", "assess_yield",
            "FIGURES", "PERCENTILES"]
@@ -256,6 +257,33 @@ def assess_yield(design, count: int, seed: int = 0, tolerances=None) -> YieldRes
     YieldResult
     """
     builds = sample_builds(design, count, seed, tolerances)
-    table = assess_many(builds.designs, dynamics=False, lean=True)
-    return yield_of(table.ratios.reindex(columns=table.ratios.columns), node_figures(table.frame),
-                    seed)
+    if any(d.switchable for d in builds.designs[:1]):  # a pair: one assessment per position
+        table = assess_many(builds.designs, dynamics=False, lean=True)
+        return yield_of(table.ratios, node_figures(table.frame), seed)
+    return yield_of(*check_table(builds.designs), seed)
+
+
+def check_table(designs):
+    """Every check ratio and the :data:`FIGURES` of designs without a switch, straight from the
+    full tier's check columns (:func:`assess_many`'s figures, without its per-design objects).
+
+    Returns
+    -------
+    (ratios, figures) : DataFrame, DataFrame
+        Row per design; a check applying to none of them left out.
+    """
+    ratios, figures = [], []
+    for members in _groups(designs).values():
+        group = [designs[i] for i in members]
+        solved, *_, columns = _solve_group(group, False, False, True)
+        ratios.append(pd.DataFrame({c.name: c.ratio for c in columns}, index=members))
+        idle = solved["nominal_idle"][3]["dc_voltage"]
+        full = solved["nominal_full"][3]["dc_voltage"]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            percent = np.where(idle != 0, 100 * (idle - full) / idle, np.nan)
+        figures.append(pd.DataFrame({f"{node.name}.{name}": values[:, k]
+                                     for k, node in enumerate(group[0].nodes)
+                                     for name, values in zip(FIGURES, (idle, full, percent))},
+                                    index=members))
+    ratios = pd.concat(ratios).sort_index()
+    return ratios.dropna(axis=1, how="all"), pd.concat(figures).sort_index()

@@ -204,15 +204,14 @@ def _provenance(items, what):
             for x in items]
 
 
-def _assess_group(designs, detail, dynamics=True, lean=False):
+def _solve_group(designs, detail, dynamics, lean):
+    """Every corner's steady state, the sag, switch-on and switch-off, and the check columns."""
     batches = _corner_batches(designs)
     solved, seen = {}, {}
     for name, batch in batches.items():  # coinciding corners (a sampled build's) solve once
         seen[batch.key] = seen.get(batch.key) or (batch, *solve_with_figures(batch))
         solved[name] = seen[batch.key]
-    count = len(designs)
-    n_nodes = len(designs[0].nodes)
-    names = [n.name for n in designs[0].nodes]
+    count, n_nodes = len(designs), len(designs[0].nodes)
     freq = designs[0].mains.frequency
     f = {k: v[3] for k, v in solved.items()}
 
@@ -235,13 +234,8 @@ def _assess_group(designs, detail, dynamics=True, lean=False):
     b_none, m_none, w_none, f_none = solved["high_none"]
     surge = transients.surge_peak(m_none, b_none.elements, b_none.peak, freq,
                                   b_none.values.load_current)
-    if lean:
-        charge_peak = transients.charge_up_peaks(m_none, b_none.elements, b_none.peak, freq,
-                                                 b_none.values.load_current, CHARGE_UP_TIME)
-    else:
-        t_up, v_up = transients.charge_up(m_none, b_none.elements, b_none.peak, freq,
-                                          b_none.values.load_current, CHARGE_UP_TIME)
-        charge_peak = v_up.max(axis=1)
+    charge_peak = (transients.charge_up_peaks if lean else transients.charge_up_max)(
+        m_none, b_none.elements, b_none.peak, freq, b_none.values.load_current, CHARGE_UP_TIME)
     steady_peak = np.maximum(f_none["peak_voltage"], f["high_idle"]["peak_voltage"])
     discharge = transients.discharge_times(b_none.structure, b_none.values, f_none["dc_voltage"],
                                            np.array([d.conditions.safe_voltage
@@ -251,6 +245,14 @@ def _assess_group(designs, detail, dynamics=True, lean=False):
     diodes = [_diode_part(d) for d in designs]
     columns = _check_columns(designs, valves, diodes, solved, surge, charge_peak, steady_peak,
                              discharge)
+    return solved, f, sag, surge, charge_peak, steady_peak, discharge, valves, diodes, columns
+
+
+def _assess_group(designs, detail, dynamics=True, lean=False):
+    solved, f, sag, surge, charge_peak, steady_peak, discharge, valves, diodes, columns = \
+        _solve_group(designs, detail, dynamics, lean)
+    count, n_nodes = len(designs), len(designs[0].nodes)
+    names = [n.name for n in designs[0].nodes]
     stress = ratings.rectifier_stress(columns)
     if stress.size == 0:
         stress = np.full(count, np.nan)

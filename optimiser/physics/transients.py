@@ -22,6 +22,7 @@ __all__ = [
     "averaged_sag_step",
     "surge_peak",
     "charge_up",
+    "charge_up_max",
     "charge_up_peaks",
     "discharge_times",
     "bleeder_for",
@@ -275,6 +276,11 @@ def charge_up(model, elements, peak, frequency, loads, duration, steps=TRANSIENT
     run = supply.step_response(model, elements, peak, frequency, loads, x0, np.zeros(batch),
                                duration, steps_per_half_cycle=steps, start_time=start_time)
     return run.time - start_time, node_outputs(model.node_voltage, run.state, run.drive, loads)
+
+
+def charge_up_max(model, elements, peak, frequency, loads, duration, steps=TRANSIENT_STEPS):
+    """The highest instantaneous voltage of each node over :func:`charge_up`. [V] (B, N)"""
+    return charge_up(model, elements, peak, frequency, loads, duration, steps)[1].max(axis=1)
 
 
 def charge_up_peaks(model, elements, peak, frequency, loads, duration, steps=TRANSIENT_STEPS):
