@@ -31,6 +31,8 @@ __all__ = ["Builds", "sample_builds", "YieldResult", "yield_of", "assess_yield",
 
 #: Percentiles reported of every check ratio and node figure. [%]
 PERCENTILES = (1, 50, 99)
+#: Builds assessed together at most (:func:`check_table`).
+CHUNK = 500
 #: Per-node figures whose spread over the builds is reported.
 FIGURES = ("idle_voltage", "full_power_voltage", "static_drop_percent")
 
@@ -263,9 +265,15 @@ def assess_yield(design, count: int, seed: int = 0, tolerances=None) -> YieldRes
     return yield_of(*check_table(builds.designs), seed)
 
 
-def check_table(designs):
+def check_table(designs, chunk=CHUNK):
     """Every check ratio and the :data:`FIGURES` of designs without a switch, straight from the
     full tier's check columns (:func:`assess_many`'s figures, without its per-design objects).
+
+    Parameters
+    ----------
+    designs : list of Design
+    chunk : int
+        Designs solved together at most (the arrays of a few thousand stay in the caches).
 
     Returns
     -------
@@ -273,7 +281,8 @@ def check_table(designs):
         Row per design; a check applying to none of them left out.
     """
     ratios, figures = [], []
-    for members in _groups(designs).values():
+    parts = [m[i:i + chunk] for m in _groups(designs).values() for i in range(0, len(m), chunk)]
+    for members in parts:
         group = [designs[i] for i in members]
         solved, *_, columns = _solve_group(group, False, False, True)
         ratios.append(pd.DataFrame({c.name: c.ratio for c in columns}, index=members))

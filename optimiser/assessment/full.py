@@ -239,7 +239,7 @@ def _solve_group(designs, detail, dynamics, lean):
     steady_peak = np.maximum(f_none["peak_voltage"], f["high_idle"]["peak_voltage"])
     discharge = transients.discharge_times(b_none.structure, b_none.values, f_none["dc_voltage"],
                                            np.array([d.conditions.safe_voltage
-                                                     for d in designs]))
+                                                     for d in designs]), modal=lean)
 
     valves = [_valve_part(d) for d in designs]
     diodes = [_diode_part(d) for d in designs]
@@ -554,9 +554,8 @@ def assess_many(designs, *, detail=False, dynamics=True, lean=False) -> Assessme
         static drop from idle to full power and the times are None (a search that asks only
         for the amount of sag saves the transient).
     lean : bool
-        Sampled builds' way (:mod:`optimiser.assessment.builds`): the switch-on charge-up's
-        peaks are taken inside the march, its trajectory not kept (the same figures to
-        rounding, a fraction of the time and memory).
+        Sampled builds' shortcuts (:mod:`optimiser.assessment.builds`; the same figures to
+        rounding): charge-up peaks taken in the march, discharge by modes (transients).
     """
     parsed = [load_design(d) for d in designs]
     # a switchable pair is assessed as one design per switch position
