@@ -176,7 +176,12 @@ def _corner_batches(designs):
         "high_full": (high, c_high, "full"),
         "high_none": (high, c_high, "none"),
     }
-    return {name: Batch.from_designs(designs, m, c, loads) for name, (m, c, loads) in spec.items()}
+    made = {}  # coinciding corners (a sampled build's, its bands collapsed) are built once
+    for name, (m, c, loads) in spec.items():
+        key = (np.broadcast_to(m, low.shape).tobytes(), np.broadcast_to(c, low.shape).tobytes())
+        spec[name] = made[key + (loads,)] = made.get(key + (loads,)) or Batch.from_designs(
+            designs, m, c, loads)
+    return spec
 
 
 def _valve_part(design):
