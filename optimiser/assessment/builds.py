@@ -14,8 +14,11 @@ Methuen 1964, ch. 5; the yield's sampling error is binomial, sqrt(y (1 - y) / N)
 
 from __future__ import annotations
 
+import os
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
+import numba
 import numpy as np
 import pandas as pd
 from scipy import stats
@@ -265,7 +268,7 @@ def assess_yield(design, count: int, seed: int = 0, tolerances=None) -> YieldRes
     return yield_of(*check_table(builds.designs), seed)
 
 
-def check_table(designs, chunk=CHUNK):
+def check_table(designs, chunk=CHUNK, threads=None):
     """Every check ratio and the :data:`FIGURES` of designs without a switch, straight from the
     full tier's check columns (:func:`assess_many`'s figures, without its per-design objects).
 
@@ -273,26 +276,39 @@ def check_table(designs, chunk=CHUNK):
     ----------
     designs : list of Design
     chunk : int
-        Designs solved together at most (the arrays of a few thousand stay in the caches).
+        Designs solved together at most (the arrays of a few hundred stay in the caches).
+    threads : int, optional
+        Chunks solved at once (default: one per core). The compiled marches release the
+        interpreter lock, so the threads overlap; each chunk's figures are its own, so the
+        result is the same for any number of threads.
 
     Returns
     -------
     (ratios, figures) : DataFrame, DataFrame
         Row per design; a check applying to none of them left out.
     """
-    ratios, figures = [], []
     parts = [m[i:i + chunk] for m in _groups(designs).values() for i in range(0, len(m), chunk)]
-    for members in parts:
+
+    def table(members):
+        if pool_threads > 1:  # the pool fills the cores: each kernel on its thread alone
+            numba.set_num_threads(1)  # (this thread's own setting)
         group = [designs[i] for i in members]
         solved, *_, columns = _solve_group(group, False, False, True)
-        ratios.append(pd.DataFrame({c.name: c.ratio for c in columns}, index=members))
+        ratios = pd.DataFrame({c.name: c.ratio for c in columns}, index=members)
         idle = solved["nominal_idle"][3]["dc_voltage"]
         full = solved["nominal_full"][3]["dc_voltage"]
         with np.errstate(divide="ignore", invalid="ignore"):
             percent = np.where(idle != 0, 100 * (idle - full) / idle, np.nan)
-        figures.append(pd.DataFrame({f"{node.name}.{name}": values[:, k]
+        return ratios, pd.DataFrame({f"{node.name}.{name}": values[:, k]
                                      for k, node in enumerate(group[0].nodes)
                                      for name, values in zip(FIGURES, (idle, full, percent))},
-                                    index=members))
+                                    index=members)
+
+    pool_threads = 1
+    first = table(parts[0])  # (which also picks numba's threading layer)
+    if numba.threading_layer() != "workqueue":  # (that one is not safe from two threads)
+        pool_threads = threads or os.cpu_count() or 1
+    with ThreadPoolExecutor(max_workers=pool_threads) as pool:
+        ratios, figures = zip(first, *pool.map(table, parts[1:]))
     ratios = pd.concat(ratios).sort_index()
     return ratios.dropna(axis=1, how="all"), pd.concat(figures).sort_index()

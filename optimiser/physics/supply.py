@@ -148,7 +148,7 @@ def _output_row(model: StateSpace):
     return c[:, 0], d[:, 0]
 
 
-@numba.njit(cache=True, parallel=True)
+@numba.njit(cache=True, parallel=True, nogil=True)
 def _march_kernel(phi, ga, gb, kappa, c_row, beta, d_e, load_feed, peak, sines, x0, e0,
                   si, vv, isat, nem, rs, perv, want_jac, store, out_c, out_d, out_k,
                   xs, es, iss, ds, jac, top):
