@@ -214,7 +214,7 @@ def _solve_group(designs, detail, dynamics, lean):
     batches = _corner_batches(designs)
     solved, seen = {}, {}
     for name, batch in batches.items():  # coinciding corners (a sampled build's) solve once
-        seen[batch.key] = seen.get(batch.key) or (batch, *solve_with_figures(batch))
+        seen[batch.key] = seen.get(batch.key) or (batch, *solve_with_figures(batch, lean))
         solved[name] = seen[batch.key]
     count, n_nodes = len(designs), len(designs[0].nodes)
     freq = designs[0].mains.frequency
