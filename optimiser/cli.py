@@ -59,6 +59,9 @@ def _parser() -> argparse.ArgumentParser:
                     help="where to write the page (default: report.html inside the results "
                          "folder; for a design file, <design stem>.report.html in the current "
                          "folder)")
+    rp.add_argument("--yield", dest="builds", type=int, metavar="N", help="for a design file: "
+                    "also sample N builds from its tolerances and show their yield")
+    rp.add_argument("--seed", type=int, default=0, help="seed of the sampled builds (default 0)")
     return p
 
 
@@ -74,7 +77,8 @@ def _report(args) -> int:
             page = results_report(source, link_base=out.parent)
         else:
             out = Path(args.out) if args.out else Path.cwd() / f"{source.stem}.report.html"
-            page = design_report(source)
+            args.design = source
+            page = design_report(source, builds=_sampled_yield(args))
     except ResultsError as exc:
         print(f"error: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
@@ -122,7 +126,7 @@ def _evaluate(args) -> int:
     if args.report:
         from optimiser.outputs.report import design_report, write_report
 
-        path = write_report(design_report(args.design), args.report)
+        path = write_report(design_report(args.design, builds=sampled), args.report)
         # stderr, so that --json output stays one JSON object
         print(f"report written to {path}", file=sys.stderr)
     return 0

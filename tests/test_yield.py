@@ -146,6 +146,20 @@ def test_evaluate_yield_json_and_text(capsys):
     assert "most likely to fail" in text and "sampled builds" in text
 
 
+def test_design_report_shows_the_yield_of_its_sampled_builds(tmp_path, capsys):
+    y = assess_yield(VALVE, 30, seed=2)
+    out = tmp_path / "r.html"
+    assert main(["report", str(VALVE), "--yield", "30", "--seed", "2", "--out", str(out)]) == 0
+    page = out.read_text(encoding="utf-8")
+    assert "Yield over sampled builds" in page
+    assert f"30 sampled builds (seed 2) from the design's tolerances: {100 * y.fraction:.1f} %" \
+        in page
+    plain = tmp_path / "plain.html"
+    assert main(["evaluate", str(VALVE), "--report", str(plain)]) == 0
+    assert "Yield over sampled builds" not in plain.read_text(encoding="utf-8")
+    capsys.readouterr()
+
+
 def test_evaluate_yield_refuses_zero_builds(capsys):
     assert main(["evaluate", str(VALVE), "--yield", "0"]) == 2
     assert "--yield" in capsys.readouterr().err

@@ -1059,7 +1059,7 @@ def _page(title: str, lede: str, toc, body: str) -> str:
             f"<script>{_JS}</script>\n</body>\n</html>\n")
 
 
-def design_report(design, *, title=None) -> str:
+def design_report(design, *, title=None, builds=None) -> str:
     """One self-contained HTML page for one design.
 
     Parameters
@@ -1068,6 +1068,8 @@ def design_report(design, *, title=None) -> str:
         A design file (YAML), a dict of the same shape, or a loaded :class:`Design`.
     title : str, optional
         The page title; the file name when not given.
+    builds : YieldResult, optional
+        Sampled builds of the design (``--yield N``): their yield part is added.
 
     Returns
     -------
@@ -1085,6 +1087,10 @@ def design_report(design, *, title=None) -> str:
     title = title or f"Railwright report: {name}"
     section = _design_section(d, a, anchor, f"Design {name}", design_file=path,
                               subtitle=_e(str(path)) if path is not None else "")
+    if builds is not None:
+        from optimiser.outputs.yield_figures import design_yield_html
+
+        section += design_yield_html(builds, anchor, _figure, _svg, _figure_html)
     toc = [(anchor, f"Design {name}")] + [(f"{anchor}-{k}", t) for k, t in _SUBSECTIONS]
     lede = ("One HV supply: its waveforms, sag, switch-on, checks, transformer, parts and "
             "cautions.")

@@ -5,7 +5,8 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["yield_text", "summary_lines", "bplus_histogram", "check_bars", "builds_csv"]
+__all__ = ["yield_text", "summary_lines", "bplus_histogram", "check_bars", "builds_csv",
+           "yield_html", "design_yield_html"]
 
 
 def _ratio(c) -> str:
@@ -114,7 +115,6 @@ def write_builds(opt, folder, ids) -> None:
 def yield_html(root, ident, figure, svg, figure_html) -> str:
     """The report's yield part of one design from ``builds/<id>.csv`` ('' when there is none);
     the report's own figure helpers are passed in (``figure``, ``svg``, ``figure_html``)."""
-    import matplotlib
     import pandas as pd
 
     from optimiser.assessment.builds import yield_of
@@ -128,13 +128,32 @@ def yield_html(root, ident, figure, svg, figure_html) -> str:
     ratio_cols = [c for c in frame.columns if c.startswith("ratio: ")]
     ratios = frame[ratio_cols].rename(columns=lambda c: c[len("ratio: "):])
     y = yield_of(ratios, frame[[c for c in frame.columns if "." in c and c not in ratio_cols]])
-    with matplotlib.rc_context({"font.size": 8.5}):
-        fig, axes = figure(9.0, 3.4, 1, 2, left=0.6, col_gap=2.6)
-        bplus_histogram(axes[0, 0], frame[f"{node}.idle_voltage"], low, high, node)
-        check_bars(axes[0, 1], y)
-        image = svg(fig, f"yield-{ident}", "idle B+ across sampled builds and per-check yield")
     caption = (f"{y.samples} sampled builds of {ident}: {100 * y.fraction:.1f} % meet every "
                f"constraint (sampling error +/- {100 * y.standard_error:.1f} %). Left: idle B+ at "
                f"{node} with its target window shaded; right: the least-passing constraints.")
+    return _part(y, frame[f"{node}.idle_voltage"], node, low, high, ident, caption, figure, svg,
+                 figure_html)
+
+
+def design_yield_html(y, ident, figure, svg, figure_html) -> str:
+    """The yield part of a single-design report from a :class:`YieldResult` (``--yield N``):
+    idle B+ at the first node across the builds, and the per-check yield."""
+    node = y.figures.columns[0].rsplit(".", 1)[0]
+    caption = (f"{y.samples} sampled builds (seed {y.seed}) from the design's tolerances: "
+               f"{100 * y.fraction:.1f} % pass every check (sampling error +/- "
+               f"{100 * y.standard_error:.1f} %). Left: idle B+ at {node}; right: the "
+               "least-passing checks.")
+    return _part(y, y.figures[f"{node}.idle_voltage"], node, None, None, ident, caption, figure,
+                 svg, figure_html)
+
+
+def _part(y, idle, node, low, high, ident, caption, figure, svg, figure_html) -> str:
+    import matplotlib
+
+    with matplotlib.rc_context({"font.size": 8.5}):
+        fig, axes = figure(9.0, 3.4, 1, 2, left=0.6, col_gap=2.6)
+        bplus_histogram(axes[0, 0], idle, low, high, node)
+        check_bars(axes[0, 1], y)
+        image = svg(fig, f"yield-{ident}", "idle B+ across sampled builds and per-check yield")
     return (f'<section class="part" id="yield-{ident}"><h3>Yield over sampled builds</h3>'
             f"{figure_html(image, caption, f'yield-figure-{ident}')}</section>")
