@@ -304,6 +304,8 @@ def check_table(designs, chunk=CHUNK, threads=None):
                                      for name, values in zip(FIGURES, (idle, full, percent))},
                                     index=members)
 
+    if not parts:
+        return pd.DataFrame(), pd.DataFrame()
     pool_threads = 1
     first = table(parts[0])  # (which also picks numba's threading layer)
     if numba.threading_layer() != "workqueue":  # (that one is not safe from two threads)
