@@ -54,6 +54,9 @@ def _parser() -> argparse.ArgumentParser:
     ev.add_argument("--json", action="store_true", help="print one JSON object instead of tables")
     ev.add_argument("--report", metavar="FILE",
                     help="also write a self-contained HTML report of the design to FILE")
+    ev.add_argument("--yield", dest="builds", type=int, metavar="N", help="also sample N "
+                    "builds from the design's tolerances and report the fraction passing")
+    ev.add_argument("--seed", type=int, default=0, help="seed of the sampled builds (default 0)")
     tr = sub.add_parser("transformer", help="the order sheet of a design's physical transformer")
     tr.add_argument("design", help="design file (YAML) whose transformer has a build block")
     tr.add_argument("--json", action="store_true", help="print the order sheet as JSON")
@@ -66,6 +69,9 @@ def _parser() -> argparse.ArgumentParser:
                     help="where to write the page (default: report.html inside the results "
                          "folder; for a design file, <design stem>.report.html in the current "
                          "folder)")
+    rp.add_argument("--yield", dest="builds", type=int, metavar="N", help="for a design file: "
+                    "also sample N builds from its tolerances and show their yield")
+    rp.add_argument("--seed", type=int, default=0, help="seed of the sampled builds (default 0)")
     return p
 
 
@@ -81,7 +87,8 @@ def _report(args) -> int:
             page = results_report(source, link_base=out.parent)
         else:
             out = Path(args.out) if args.out else Path.cwd() / f"{source.stem}.report.html"
-            page = design_report(source)
+            args.design = source
+            page = design_report(source, builds=_sampled_yield(args))
     except ResultsError as exc:
         print(f"error: {exc}", file=sys.stderr)
         return EXIT_BAD_INPUT
@@ -114,19 +121,36 @@ def _evaluate(args) -> int:
     from optimiser.assessment.full import assess
 
     result = assess(args.design, detail=False)
+    sampled = _sampled_yield(args)
     if args.json:
-        print(json.dumps(json_ready(result.to_dict()), indent=2, allow_nan=False))
+        out = dict(result.to_dict(), **({"yield": sampled.to_dict()} if sampled else {}))
+        print(json.dumps(json_ready(out), indent=2, allow_nan=False))
     elif hasattr(result, "positions"):
         print(render_pair(result))
     else:
         print(render_assessment(result))
+    if sampled is not None and not args.json:
+        from optimiser.outputs.yield_figures import yield_text
+
+        print("\n" + yield_text(sampled))
     if args.report:
         from optimiser.outputs.report import design_report, write_report
 
-        path = write_report(design_report(args.design), args.report)
+        path = write_report(design_report(args.design, builds=sampled), args.report)
         # stderr, so that --json output stays one JSON object
         print(f"report written to {path}", file=sys.stderr)
     return EXIT_PASSED if result.passed else EXIT_CHECK_FAILS
+
+
+def _sampled_yield(args):
+    """The yield over ``--yield N`` sampled builds (None without the option)."""
+    if args.builds is None:
+        return None
+    if args.builds < 1:
+        raise DesignError([f"--yield: the number of builds must be at least 1, got {args.builds}"])
+    from optimiser.assessment.builds import assess_yield
+
+    return assess_yield(args.design, args.builds, seed=args.seed)
 
 
 def render_pair(pair) -> str:

@@ -32,8 +32,9 @@ from optimiser.assessment import checks as check_table
 from optimiser.physics import life as wear, ratings, supply, transients
 from optimiser.physics.transformer.corners import worst_corners_by_design
 from optimiser.physics.transformer.rating import winding_error_by_design
-from optimiser.inputs.design import Design, load_design
-from optimiser.assessment.steady_state import Batch, SupplyResult, _groups, _result, figures, solve_batch
+from optimiser.inputs.design import load_design
+from optimiser.assessment.steady_state import Batch, SupplyResult, _groups, _result, solve_with_figures
+from optimiser.assessment.corners import _corner_batches, _tolerances  # noqa: F401 (_tolerances: the checks' capacitor band)
 
 __all__ = ["Assessment", "PairAssessment", "AssessmentTable", "assess", "assess_many",
            "CORNERS"]
@@ -153,35 +154,6 @@ class AssessmentTable:
     assessments: list
 
 
-def _tolerances(design: Design):
-    """(capacitance minus, plus) from the conditions, else from the capacitor series."""
-    c = design.conditions
-    if c.capacitor_minus is not None and c.capacitor_plus is not None:
-        return c.capacitor_minus, c.capacitor_plus
-    series = parts.find_part("capacitor", design.nodes[0].capacitor_series or c.capacitor_series)
-    minus = c.capacitor_minus if c.capacitor_minus is not None else series.tolerance.minus
-    plus = c.capacitor_plus if c.capacitor_plus is not None else series.tolerance.plus
-    return minus, plus
-
-
-def _corner_batches(designs):
-    low = np.array([(1 - d.conditions.mains_low) * (1 - d.conditions.transformer_tolerance)
-                    for d in designs])
-    high = np.array([(1 + d.conditions.mains_high) * (1 + d.conditions.transformer_tolerance)
-                     for d in designs])
-    tol = np.array([_tolerances(d) for d in designs])
-    c_low, c_high = 1 - tol[:, 0], 1 + tol[:, 1]
-    spec = {
-        "nominal_idle": (1.0, 1.0, "idle"),
-        "nominal_full": (1.0, 1.0, "full"),
-        "low_full": (low, c_low, "full"),
-        "high_idle": (high, c_high, "idle"),
-        "high_full": (high, c_high, "full"),
-        "high_none": (high, c_high, "none"),
-    }
-    return {name: Batch.from_designs(designs, m, c, loads) for name, (m, c, loads) in spec.items()}
-
-
 def _valve_part(design):
     v = design.rectifier.valve
     return parts.find_part("valve", v) if isinstance(v, str) and design.valve_path else None
@@ -202,15 +174,14 @@ def _provenance(items, what):
             for x in items]
 
 
-def _assess_group(designs, detail, dynamics=True):
+def _solve_group(designs, detail, dynamics, lean):
+    """Every corner's steady state, the sag, switch-on and switch-off, and the check columns."""
     batches = _corner_batches(designs)
-    solved = {}
-    for name, batch in batches.items():
-        model, waves = solve_batch(batch)
-        solved[name] = (batch, model, waves, figures(batch, model, waves))
-    count = len(designs)
-    n_nodes = len(designs[0].nodes)
-    names = [n.name for n in designs[0].nodes]
+    solved, seen = {}, {}
+    for name, batch in batches.items():  # coinciding corners (a sampled build's) solve once
+        seen[batch.key] = seen.get(batch.key) or (batch, *solve_with_figures(batch, lean))
+        solved[name] = seen[batch.key]
+    count, n_nodes = len(designs), len(designs[0].nodes)
     freq = designs[0].mains.frequency
     f = {k: v[3] for k, v in solved.items()}
 
@@ -233,18 +204,25 @@ def _assess_group(designs, detail, dynamics=True):
     b_none, m_none, w_none, f_none = solved["high_none"]
     surge = transients.surge_peak(m_none, b_none.elements, b_none.peak, freq,
                                   b_none.values.load_current)
-    t_up, v_up = transients.charge_up(m_none, b_none.elements, b_none.peak, freq,
-                                      b_none.values.load_current, CHARGE_UP_TIME)
-    charge_peak = v_up.max(axis=1)
+    charge_peak = (transients.charge_up_peaks if lean else transients.charge_up_max)(
+        m_none, b_none.elements, b_none.peak, freq, b_none.values.load_current, CHARGE_UP_TIME)
     discharge = transients.discharge_times(b_none.structure, b_none.values, f_none["dc_voltage"],
                                            np.array([d.conditions.safe_voltage
-                                                     for d in designs]))
+                                                     for d in designs]), modal=lean)
 
     valves = [_valve_part(d) for d in designs]
     diodes = [_diode_part(d) for d in designs]
     check_figures = _check_figures(designs, valves, diodes, f, surge, charge_peak, discharge)
     steady_peak = check_table.steady_peak(check_figures)
     columns = check_table.evaluate(check_figures)
+    return solved, f, sag, surge, charge_peak, steady_peak, discharge, valves, diodes, columns
+
+
+def _assess_group(designs, detail, dynamics=True, lean=False):
+    solved, f, sag, surge, charge_peak, steady_peak, discharge, valves, diodes, columns = \
+        _solve_group(designs, detail, dynamics, lean)
+    count, n_nodes = len(designs), len(designs[0].nodes)
+    names = [n.name for n in designs[0].nodes]
     stress = ratings.rectifier_stress(columns)
     if stress.size == 0:
         stress = np.full(count, np.nan)
@@ -494,7 +472,7 @@ def _detail_curves(designs, sag, rectifier_start):
     return out
 
 
-def assess_many(designs, *, detail=False, dynamics=True) -> AssessmentTable:
+def assess_many(designs, *, detail=False, dynamics=True, lean=False) -> AssessmentTable:
     """Assess many designs; designs of one ladder shape are solved together.
 
     Parameters
@@ -506,6 +484,9 @@ def assess_many(designs, *, detail=False, dynamics=True) -> AssessmentTable:
         Simulate the sag step for attack and recovery times. Without it the sag depth is the
         static drop from idle to full power and the times are None (a search that asks only
         for the amount of sag saves the transient).
+    lean : bool
+        Sampled builds' shortcuts (:mod:`optimiser.assessment.builds`; the same figures to
+        rounding): charge-up peaks taken in the march, discharge by modes (transients).
     """
     parsed = [load_design(d) for d in designs]
     # a switchable pair is assessed as one design per switch position
@@ -516,7 +497,7 @@ def assess_many(designs, *, detail=False, dynamics=True) -> AssessmentTable:
             owner.append((i, name))
     flat_results = [None] * len(flat)
     for _, members in _groups(flat).items():
-        group = _assess_group([flat[i] for i in members], detail, dynamics)
+        group = _assess_group([flat[i] for i in members], detail, dynamics, lean)
         for i, a in zip(members, group):
             flat_results[i] = a
     results = [None] * len(parsed)

@@ -117,6 +117,12 @@ class Batch:
     topology: np.ndarray
     names: list
 
+    @property
+    def key(self) -> tuple:
+        """What tells two batches of the same designs apart: EMF, capacitors and loads."""
+        v = self.values
+        return (self.peak.tobytes(), v.capacitance.tobytes(), v.load_current.tobytes())
+
     @staticmethod
     def structure_of(design: Design) -> ladder.LadderStructure:
         first = design.nodes[0].feed
@@ -210,7 +216,10 @@ class Batch:
 def _path_elements(design: Design) -> dict:
     """Per-path element counts and parameters of one design (parts resolved from the catalogue)."""
     r = design.rectifier
-    return path_elements_of(r.topology, r.diode, r.valve)
+    out = path_elements_of(r.topology, r.diode, r.valve)
+    # a sampled build's own valve (optimiser.assessment.builds) differs from its type's figure
+    out["perveance"] *= getattr(design, "_perveance_factor", 1.0)
+    return out
 
 
 def path_elements_of(topology, diode, valve) -> dict:
@@ -294,8 +303,16 @@ def solve_batch(batch: Batch, steps: int = STEPS_PER_HALF_CYCLE):
     return model, waves
 
 
-def figures(batch: Batch, model: ladder.StateSpace, waves: supply.Waveforms) -> dict:
-    """Every steady-state figure of a batch as arrays (per-node figures shaped (B, N))."""
+def solve_with_figures(batch: Batch, checked_only=False):
+    """(StateSpace, Waveforms, figures) of a batch: :func:`solve_batch` then :func:`figures`."""
+    model, waves = solve_batch(batch)
+    return model, waves, figures(batch, model, waves, checked_only)
+
+
+def figures(batch: Batch, model: ladder.StateSpace, waves: supply.Waveforms,
+            checked_only=False) -> dict:
+    """Every steady-state figure of a batch as arrays (per-node figures shaped (B, N)); with
+    ``checked_only`` just those the full tier's checks read (a sampled build's)."""
     v = batch.values
     loads = v.load_current
     xs = waves.state[:, :-1]  # the last sample repeats the first
@@ -309,15 +326,11 @@ def figures(batch: Batch, model: ladder.StateSpace, waves: supply.Waveforms) -> 
     feed_i = node_outputs(model.feed_current, xs, es, loads)
     dc = node_v.mean(axis=1)
     node_peak = node_v.max(axis=1)
-    ripple_pp = node_v.max(axis=1) - node_v.min(axis=1)
-    ripple_rms = node_v.std(axis=1)
     cap_rms = np.sqrt((cap_i ** 2).mean(axis=1))
 
     i_mean = cur.mean(axis=1)
     i_sq = (cur ** 2).mean(axis=1)
     peak_i = cur.max(axis=1)
-    conducting = cur > 1e-4 * np.maximum(peak_i[:, None], 1e-12)
-    angle = conducting.mean(axis=1) * 180.0
 
     dt = waves.time[1] - waves.time[0]
     di_dt = (np.roll(cur, -1, axis=1) - np.roll(cur, 1, axis=1)) / (2 * dt)
@@ -326,45 +339,54 @@ def figures(batch: Batch, model: ladder.StateSpace, waves: supply.Waveforms) -> 
     terminal = src - batch.winding_resistance[:, None] * cur \
         - batch.winding_inductance[:, None] * di_dt
     el = batch.elements
-    v_si = rectifier.shockley_voltage(cur, el.saturation_current[:, None],
-                                      el.emission_coefficient[:, None],
-                                      el.series_resistance[:, None])
-    v_valve = rectifier.child_langmuir_voltage(cur, el.perveance[:, None])
     topo = batch.topology[:, None]
     on = cur > 0
     piv_bridge = 0.5 * (v_rect + terminal)
-    piv_hybrid = np.where(on, v_rect + np.maximum(v_si, v_valve), v_rect)
+    if checked_only and not np.any(topo == "hybrid-bridge"):
+        piv_hybrid = v_rect  # (not chosen below)
+    else:
+        v_si = rectifier.shockley_voltage(cur, el.saturation_current[:, None],
+                                          el.emission_coefficient[:, None],
+                                          el.series_resistance[:, None])
+        v_valve = rectifier.child_langmuir_voltage(cur, el.perveance[:, None])
+        piv_hybrid = np.where(on, v_rect + np.maximum(v_si, v_valve), v_rect)
     piv_ct = v_rect + src
     piv = np.where(topo == "bridge", piv_bridge, np.where(topo == "hybrid-bridge", piv_hybrid,
                                                            piv_ct)).max(axis=1)
     whole_winding = batch.topology != "centre-tap"
-    load_power = (dc * loads).sum(axis=1) + (v.load_conductance * (node_v ** 2).mean(1)).sum(1)
-    feed_loss = np.zeros(len(dc))
-    for k in range(1, batch.structure.n_nodes):
-        feed_loss += v.feed_resistance[:, k] * (feed_i[:, :, k] ** 2).mean(axis=1)
-    feed_loss += batch.first_feed_resistance * i_sq
-    esr_loss = (v.esr * (cap_i ** 2).mean(axis=1)).sum(axis=1)
-    return {
+    out = {
         "dc_voltage": dc,
-        "ripple_pp": ripple_pp,
-        "ripple_rms": ripple_rms,
         "capacitor_rms_current": cap_rms,
         "peak_voltage": node_peak,
         "feed_rms_current": np.sqrt((feed_i ** 2).mean(axis=1)),
         "feed_dc_current": feed_i.mean(axis=1),
         "rectifier_peak_current": peak_i,
         "rectifier_average_current": 0.5 * i_mean,
-        "rectifier_rms_current": np.sqrt(0.5 * i_sq),
-        "conduction_angle": angle,
         "piv": piv,
         "secondary_rms_current": np.where(whole_winding, np.sqrt(i_sq), np.sqrt(0.5 * i_sq)),
+        "converged": waves.converged,
+    }
+    if checked_only:
+        return out
+    conducting = cur > 1e-4 * np.maximum(peak_i[:, None], 1e-12)
+    load_power = (dc * loads).sum(axis=1) + (v.load_conductance * (node_v ** 2).mean(1)).sum(1)
+    feed_loss = np.zeros(len(dc))
+    for k in range(1, batch.structure.n_nodes):
+        feed_loss += v.feed_resistance[:, k] * (feed_i[:, :, k] ** 2).mean(axis=1)
+    feed_loss += batch.first_feed_resistance * i_sq
+    esr_loss = (v.esr * (cap_i ** 2).mean(axis=1)).sum(axis=1)
+    out.update({
+        "ripple_pp": node_v.max(axis=1) - node_v.min(axis=1),
+        "ripple_rms": node_v.std(axis=1),
+        "rectifier_rms_current": np.sqrt(0.5 * i_sq),
+        "conduction_angle": conducting.mean(axis=1) * 180.0,
         "rectifier_loss": (np.where(on, drop, 0.0) * cur).mean(axis=1),
         "winding_loss": batch.winding_resistance * i_sq,
         "input_power": (src * cur).mean(axis=1),
         "load_power": load_power,
         "ladder_loss": feed_loss + esr_loss,
-        "converged": waves.converged,
-    }
+    })
+    return out
 
 
 SCALARS = ("rectifier_peak_current", "rectifier_average_current", "rectifier_rms_current",

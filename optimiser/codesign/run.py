@@ -11,7 +11,7 @@ only those full figures: the feasible non-dominated designs at the spec's resolu
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -19,6 +19,7 @@ import optimiser.codesign.nsga as search
 from optimiser.codesign import branches, objective_table
 from optimiser.codesign.objectives import Unmet
 from optimiser.codesign.problem import CoDesign
+from optimiser.codesign.robustness import assess_robustness
 from optimiser.codesign.scoring import Scored
 from optimiser.inputs.spec import Spec
 
@@ -47,6 +48,8 @@ class Optimisation:
     branch_fronts : dict
         {branch key: rows of ``scored`` on that branch's own front} for every branch of the
         spec (:mod:`optimiser.codesign.branches`; empty where none of it met the spec).
+    robust : RobustYield or None
+        With the spec's ``robustness:``, each listed design's yield over sampled builds.
     """
 
     spec: Spec
@@ -57,6 +60,7 @@ class Optimisation:
     knee: int | None
     unmet: tuple
     branch_fronts: dict = None
+    robust: object = None  # the listed designs' yield over sampled builds (codesign.robustness)
 
     @property
     def listed(self) -> np.ndarray:
@@ -146,5 +150,6 @@ def optimise(spec: Spec, *, population=None, generations=None, seed=None, worker
     knee = int(front[search.knee(scored.F[front])]) if len(front) else None
     unmet = tuple(Unmet(info, float(best)) for info, best in
                   zip(binding.constraints, scored.G.min(axis=0)) if best > 0)
-    return Optimisation(spec=spec, binding=binding, search=result, scored=scored, front=front,
-                        knee=knee, unmet=unmet, branch_fronts=fronts)
+    opt = Optimisation(spec=spec, binding=binding, search=result, scored=scored, front=front,
+                       knee=knee, unmet=unmet, branch_fronts=fronts)
+    return replace(opt, robust=assess_robustness(binding, scored, opt.listed, spec))

@@ -15,6 +15,7 @@ from pydantic import Field, ValidationError, field_validator, model_validator
 from optimiser.formats.yamlfile import DesignError, read_yaml, validate
 from optimiser.formats.ranges import ranged as R
 from optimiser.formats.schema import Fraction, Strict, unique_names
+from optimiser.inputs.tolerances import Tolerances
 
 __all__ = [
     "DesignError",
@@ -220,6 +221,7 @@ class Design(Strict):
     rectifier: Rectifier
     nodes: list[Node] = Field(min_length=1)
     conditions: Conditions = Conditions()
+    tolerances: Tolerances = Tolerances()  # how real builds spread (optimiser.inputs.tolerances)
     #: the user's own parts files (same layout as optimiser/parts/data/*.yaml), relative to this file
     parts_files: list[str] = []
     #: the user's own folder of transformer data (cores, steels, wire, prices), relative to it

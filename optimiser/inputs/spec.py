@@ -51,6 +51,7 @@ from typing import Annotated, Literal, Optional
 from pydantic import BeforeValidator, Field, field_validator, model_validator
 
 from optimiser.inputs.design import Conditions, register_user_data
+from optimiser.inputs.tolerances import Robustness, Tolerances
 from optimiser.formats.yamlfile import DesignError, _positioned, read_yaml, validate
 from optimiser.formats.ranges import ranged as R
 from optimiser.formats.schema import (
@@ -268,6 +269,8 @@ class Spec(Strict):
     choices: Choices
     transformer: TransformerChoices
     conditions: Conditions = Conditions()
+    tolerances: Tolerances = Tolerances()  # how real builds spread (optimiser.inputs.tolerances)
+    robustness: Optional[Robustness] = None  # re-assess kept designs by sampled builds
     margins: Margins = Margins()
     costs: Costs = Costs()
     search: SearchSettings = SearchSettings()

@@ -340,7 +340,7 @@ def render_summary(opt, spec_text: str, ids=None, elapsed=None) -> str:
     out += [f"- rectifier: {r['rectifier']}",
             f"- cost {r['cost']:.1f} cost units, regulation (static sag) "
             f"{_pct(r['regulation'])}, rectifier stress {r['rectifier_stress']:.3f}, shortest "
-            f"part life {r['life']:.3g} h", ""]
+            f"part life {r['life']:.3g} h"] + _yield_lines(opt, opt.knee) + [""]
     out += ["### Check table", ""] + _check_table(assessment) + [""]
     out += ["### Parts list", ""] + _parts_table(opt.binding.parts_list(design)) + [""]
     if design.transformer_design is not None:
@@ -350,6 +350,12 @@ def render_summary(opt, spec_text: str, ids=None, elapsed=None) -> str:
         out += ["### Order sheet", "", sheet, ""]
     out += ["## Cautions", ""] + [f"- {c}" for c in CAUTIONS] + [""]
     return "\n".join(out)
+
+
+def _yield_lines(opt, row):
+    from optimiser.outputs.yield_figures import summary_lines
+
+    return summary_lines(opt, row)
 
 
 def render_impossible(opt) -> str:
@@ -554,6 +560,9 @@ def write_results(opt, out_dir, spec_text: str, elapsed=None) -> Path:
             (tmp / "designs" / f"{ident}.yaml").write_text(
                 design_yaml(opt.scored.designs[row], header), encoding="utf-8")
         (tmp / "spec.yaml").write_text(spec_text, encoding="utf-8")
+        from optimiser.outputs.yield_figures import write_builds
+
+        write_builds(opt, tmp, ids)
         rows = representatives(opt)
         detailed = assess_many([opt.scored.designs[r] for r in rows], detail=True).assessments
         detail = dict(zip(rows, detailed))

@@ -19,7 +19,8 @@ import numpy as np
 from optimiser.physics.ladder import StateSpace
 from optimiser.physics.rectifier import PathElements, path_step
 
-__all__ = ["Discretisation", "discretise", "Waveforms", "periodic_steady_state", "step_response"]
+__all__ = ["Discretisation", "discretise", "Waveforms", "periodic_steady_state", "step_response",
+           "peaks"]
 
 
 @dataclass(frozen=True)
@@ -147,11 +148,40 @@ def _output_row(model: StateSpace):
     return c[:, 0], d[:, 0]
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, parallel=True, nogil=True)
 def _march_kernel(phi, ga, gb, kappa, c_row, beta, d_e, load_feed, peak, sines, x0, e0,
-                  si, vv, isat, nem, rs, perv, want_jac, xs, es, iss, ds, jac):
-    """Compiled per-design loop of :func:`_march` (see there); fills the output arrays."""
-    batch, n = x0.shape
+                  si, vv, isat, nem, rs, perv, want_jac, store, out_c, out_d, out_k,
+                  xs, es, iss, ds, jac, top):
+    """Compiled loop of :func:`_march` over the designs (see there); fills the output arrays.
+
+    The designs are independent: threads split them (``prange``), each row a function of its
+    own (DEVELOPERS.md: an inline row body once made numba take a reduction across rows).
+    """
+    for b in numba.prange(x0.shape[0]):
+        _march_row(b, phi, ga, gb, kappa, c_row, beta, d_e, load_feed, peak, sines, x0, e0,
+                   si, vv, isat, nem, rs, perv, want_jac, store, out_c, out_d, out_k,
+                   xs, es, iss, ds, jac, top)
+
+
+@numba.njit(cache=True)
+def _track(b, x, e, out_c, out_d, out_k, top):
+    """Raise ``top[b]`` to the outputs ``C x + d e + k`` of the state (x, e) where higher."""
+    for m in range(top.shape[1]):
+        v = 0.0
+        for r in range(x.shape[0]):
+            v += out_c[b, m, r] * x[r]
+        v = v + out_d[b, m] * e + out_k[b, m]  # transients.node_outputs' order of sums
+        if v > top[b, m]:
+            top[b, m] = v
+
+
+@numba.njit(cache=True)
+def _march_row(b, phi, ga, gb, kappa, c_row, beta, d_e, load_feed, peak, sines, x0, e0,
+               si, vv, isat, nem, rs, perv, want_jac, store, out_c, out_d, out_k,
+               xs, es, iss, ds, jac, top):
+    """One design's march: the trajectory into (xs, es, iss, ds) if ``store``, the peaks of
+    the outputs ``out_c x + out_d e + out_k`` into ``top`` if it has columns."""
+    n = x0.shape[1]
     steps = sines.shape[0] - 1
     x = np.empty(n)
     y = np.empty(n)
@@ -159,108 +189,120 @@ def _march_kernel(phi, ga, gb, kappa, c_row, beta, d_e, load_feed, peak, sines, 
     dy = np.empty((n, n + 1))
     je = np.empty(n + 1)
     dq = np.empty(n + 1)
-    for b in range(batch):
+    for r in range(n):
+        x[r] = x0[b, r]
+    e = e0[b]
+    i0 = d_e[b] * e + load_feed[b]
+    for r in range(n):
+        i0 += c_row[b, r] * x[r]
+    if store:
         for r in range(n):
-            x[r] = x0[b, r]
             xs[b, 0, r] = x[r]
-        e = e0[b]
         es[b, 0] = e
         ds[b, 0] = peak[b] * sines[0] - e
-        i0 = d_e[b] * e + load_feed[b]
-        for r in range(n):
-            i0 += c_row[b, r] * x[r]
         iss[b, 0] = max(i0, 0.0)
-        z = np.nan
+    if top.shape[1]:
+        for m in range(top.shape[1]):
+            top[b, m] = -np.inf
+        _track(b, x, e, out_c, out_d, out_k, top)
+    z = np.nan
+    if want_jac:
+        jx[:, :] = 0.0
+        for r in range(n):
+            jx[r, r] = 1.0
+        je[:] = 0.0
+        je[n] = 1.0
+    for k in range(1, steps + 1):
+        src = peak[b] * sines[k]
+        # y: the state at the step end with no drop in the path (u_k held, then first-order)
+        for r in range(n):
+            acc = ga[b, r] * e + gb[b, r] * src + kappa[b, r]
+            for c in range(n):
+                acc += phi[b, r, c] * x[c]
+            y[r] = acc
+        q = d_e[b] * src + load_feed[b]
+        for r in range(n):
+            q += c_row[b, r] * y[r]
+        i, d, sens, z = path_step(q, beta[b], si[b], vv[b], isat[b], nem[b], rs[b], perv[b],
+                                  z)
         if want_jac:
-            jx[:, :] = 0.0
             for r in range(n):
-                jx[r, r] = 1.0
-            je[:] = 0.0
-            je[n] = 1.0
-        for k in range(1, steps + 1):
-            src = peak[b] * sines[k]
-            # y: the state at the step end with no drop in the path (u_k held, then first-order)
+                for c in range(n + 1):
+                    acc = 0.0
+                    for m in range(n):
+                        acc += phi[b, r, m] * jx[m, c]
+                    dy[r, c] = acc
+        hold = i <= 0.0 and d_e[b] == 0.0
+        if hold:
+            # Blocked inductive path (its current is a state): hold the drive constant over
+            # the step at the value that keeps the current at zero. A first-order hold from
+            # the last conducting value rings (the trapezoidal rule's undamped mode) into
+            # false pulses. A resistive path has no such mode and keeps the first-order hold.
+            den = d_e[b]
+            acc0 = load_feed[b]
             for r in range(n):
-                acc = ga[b, r] * e + gb[b, r] * src + kappa[b, r]
-                for c in range(n):
-                    acc += phi[b, r, c] * x[c]
-                y[r] = acc
-            q = d_e[b] * src + load_feed[b]
+                g0 = ga[b, r] + gb[b, r]
+                y[r] -= ga[b, r] * e + gb[b, r] * src
+                den += c_row[b, r] * g0
+                acc0 += c_row[b, r] * y[r]
+            e_hold = -acc0 / den
             for r in range(n):
-                q += c_row[b, r] * y[r]
-            i, d, sens, z = path_step(q, beta[b], si[b], vv[b], isat[b], nem[b], rs[b], perv[b],
-                                      z)
+                x[r] = y[r] + (ga[b, r] + gb[b, r]) * e_hold
+            d = src - e_hold
+            i = 0.0
+            if want_jac:
+                for c in range(n + 1):
+                    acc = 0.0
+                    for r in range(n):
+                        acc += c_row[b, r] * dy[r, c]
+                    je[c] = -acc / den
+                for r in range(n):
+                    for c in range(n + 1):
+                        jx[r, c] = dy[r, c] + (ga[b, r] + gb[b, r]) * je[c]
+        else:
+            for r in range(n):
+                x[r] = y[r] - gb[b, r] * d
             if want_jac:
                 for r in range(n):
                     for c in range(n + 1):
-                        acc = 0.0
-                        for m in range(n):
-                            acc += phi[b, r, m] * jx[m, c]
-                        dy[r, c] = acc
-            hold = i <= 0.0 and d_e[b] == 0.0
-            if hold:
-                # Blocked inductive path (its current is a state): hold the drive constant over
-                # the step at the value that keeps the current at zero. A first-order hold from
-                # the last conducting value rings (the trapezoidal rule's undamped mode) into
-                # false pulses. A resistive path has no such mode and keeps the first-order hold.
-                den = d_e[b]
-                acc0 = load_feed[b]
-                for r in range(n):
-                    g0 = ga[b, r] + gb[b, r]
-                    y[r] -= ga[b, r] * e + gb[b, r] * src
-                    den += c_row[b, r] * g0
-                    acc0 += c_row[b, r] * y[r]
-                e_hold = -acc0 / den
-                for r in range(n):
-                    x[r] = y[r] + (ga[b, r] + gb[b, r]) * e_hold
-                d = src - e_hold
-                i = 0.0
-                if want_jac:
-                    for c in range(n + 1):
-                        acc = 0.0
-                        for r in range(n):
-                            acc += c_row[b, r] * dy[r, c]
-                        je[c] = -acc / den
+                        dy[r, c] += ga[b, r] * je[c]
+                for c in range(n + 1):
+                    acc = 0.0
                     for r in range(n):
-                        for c in range(n + 1):
-                            jx[r, c] = dy[r, c] + (ga[b, r] + gb[b, r]) * je[c]
-            else:
+                        acc += c_row[b, r] * dy[r, c]
+                    dq[c] = sens * acc
                 for r in range(n):
-                    x[r] = y[r] - gb[b, r] * d
-                if want_jac:
-                    for r in range(n):
-                        for c in range(n + 1):
-                            dy[r, c] += ga[b, r] * je[c]
                     for c in range(n + 1):
-                        acc = 0.0
-                        for r in range(n):
-                            acc += c_row[b, r] * dy[r, c]
-                        dq[c] = sens * acc
-                    for r in range(n):
-                        for c in range(n + 1):
-                            jx[r, c] = dy[r, c] - gb[b, r] * dq[c]
-                    for c in range(n + 1):
-                        je[c] = -dq[c]
-            e = src - d
+                        jx[r, c] = dy[r, c] - gb[b, r] * dq[c]
+                for c in range(n + 1):
+                    je[c] = -dq[c]
+        e = src - d
+        if store:
             for r in range(n):
                 xs[b, k, r] = x[r]
             es[b, k] = e
             iss[b, k] = i
             ds[b, k] = d
-        if want_jac:
-            for r in range(n):
-                for c in range(n + 1):
-                    jac[b, r, c] = jx[r, c]
+        if top.shape[1]:
+            _track(b, x, e, out_c, out_d, out_k, top)
+    if want_jac:
+        for r in range(n):
             for c in range(n + 1):
-                jac[b, n, c] = je[c]
+                jac[b, r, c] = jx[r, c]
+        for c in range(n + 1):
+            jac[b, n, c] = je[c]
 
 
-def _march(disc, c_row, d_row, loads, peak, omega, x0, e0, elements, steps, t0, sensitivity):
+def _march(disc, c_row, d_row, loads, peak, omega, x0, e0, elements, steps, t0, sensitivity,
+           outputs=None):
     """Step the supply from (x0, e0); optionally propagate d(x, e)/d(x0, e0).
 
     Each step: ``y = Phi x + Ga e + Gb v_src + kappa`` (the state with no drop at the step
     end), the path current ``i = q - beta d`` with ``q = c.y + d_e v_src + loads``, the
     complementarity problem for ``(i, d)``, then ``x+ = y - Gb d`` and ``e+ = v_src - d``.
+
+    With ``outputs`` (a linear output map (C, D), see :func:`peaks`) no trajectory is kept:
+    the only result is the largest value of each output over the run, (B, K).
     """
     batch, n = x0.shape
     h = disc.step
@@ -271,11 +313,19 @@ def _march(disc, c_row, d_row, loads, peak, omega, x0, e0, elements, steps, t0, 
     load_feed = np.einsum("bm,bm->b", d_row[:, 1:], loads)
     times = t0 + h * np.arange(steps + 1)
     sines = np.abs(np.sin(omega * times))  # the active half-winding changes every half-cycle
-    xs = np.empty((batch, steps + 1, n))
-    es = np.empty((batch, steps + 1))
-    iss = np.empty((batch, steps + 1))
-    ds = np.empty((batch, steps + 1))
+    store = outputs is None
+    length = steps + 1 if store else 1
+    xs = np.empty((batch, length, n))
+    es, iss, ds = (np.empty((batch, length)) for _ in range(3))
     jac = np.empty((batch, n + 1, n + 1))
+    if store:
+        out_c, out_d, out_k = np.empty((batch, 0, n)), np.empty((batch, 0)), np.empty((batch, 0))
+    else:
+        c, d = outputs
+        out_c = np.ascontiguousarray(c, dtype=float)
+        out_d = np.ascontiguousarray(d[:, :, 0], dtype=float)
+        out_k = np.ascontiguousarray(np.matmul(d[:, :, 1:], loads[:, :, None])[:, :, 0])
+    top = np.empty((batch, out_c.shape[1]))
     el = elements
     count = (batch,)
     _march_kernel(np.ascontiguousarray(disc.phi), ga, gb, kappa, np.ascontiguousarray(c_row),
@@ -286,7 +336,9 @@ def _march(disc, c_row, d_row, loads, peak, omega, x0, e0, elements, steps, t0, 
                   *(np.broadcast_to(np.asarray(a, float), count).copy() for a in (
                       el.silicon_count, el.valve_count, el.saturation_current,
                       el.emission_coefficient, el.series_resistance, el.perveance)),
-                  bool(sensitivity), xs, es, iss, ds, jac)
+                  bool(sensitivity), store, out_c, out_d, out_k, xs, es, iss, ds, jac, top)
+    if not store:
+        return top
     return times, xs, es, iss, ds, np.asarray(peak)[:, None] * sines[None, :], \
         (jac if sensitivity else None)
 
@@ -343,12 +395,18 @@ def periodic_steady_state(model: StateSpace, elements: PathElements, peak, frequ
     xs = np.empty((batch, steps + 1, n))
     es, iss, ds, src = (np.empty((batch, steps + 1)) for _ in range(4))
     active = np.arange(batch)
+    # Whether a design's next march is expected to be its last (Newton's quadratic rate from
+    # its last two residuals): that march skips the Jacobian (a third of its cost); a design
+    # it leaves short is marched again from the same start, with the Jacobian.
+    last = np.zeros(batch, dtype=bool)
+    before = np.full(batch, np.nan)
     for _ in range(max_newton):
         # only the designs not yet periodic are marched again
         sub = _take_disc(disc, active)
-        times, xa, ea, ia, da, sa, jac = _march(
-            sub, c_row[active], d_row[active], loads[active], peak[active], omega, x0[active],
-            e0[active], elements.take(active), steps, 0.0, True)
+        args = (c_row[active], d_row[active], loads[active], peak[active], omega, x0[active],
+                e0[active], elements.take(active), steps, 0.0)
+        cheap = bool(np.all(last[active]))
+        times, xa, ea, ia, da, sa, jac = _march(sub, *args, not cheap)
         xs[active], es[active], iss[active], ds[active], src[active] = xa, ea, ia, da, sa
         r = np.concatenate([xa[:, -1] - x0[active], (ea[:, -1] - e0[active])[:, None]], axis=1)
         res = np.max(np.abs(r[:, :n][:, cap]), axis=1) if cap.size else np.zeros(active.size)
@@ -357,6 +415,16 @@ def periodic_steady_state(model: StateSpace, elements: PathElements, peak, frequ
         converged[active] = done
         if np.all(done):
             break
+        if cheap:
+            jac = np.broadcast_to(2.0 * np.eye(n + 1), (active.size, n + 1, n + 1)).copy()
+            short = np.flatnonzero(~done)
+            jac[short] = _march(_take_disc(sub, short), *(
+                a[short] if isinstance(a, np.ndarray) else a for a in args[:4]), omega,
+                args[5][short], args[6][short], args[7].take(short), steps, 0.0, True)[-1]
+        relative = res / np.maximum(peak[active], 1.0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            last[active] = 3.0 * relative ** 2 * relative / before[active] ** 2 <= tol
+        before[active] = relative
         delta = _newton_step(jac - np.eye(n + 1)[None], -r)
         # keep a Newton step from throwing node voltages far outside the physical range
         vmax = np.max(np.abs(delta[:, :n] * scale[None, :]), axis=1)
@@ -423,3 +491,34 @@ def step_response(model: StateSpace, elements: PathElements, peak, frequency, lo
     batch = x0.shape[0]
     return Waveforms(time=times, state=xs, drive=es, current=iss, drop=ds, source=src,
                      converged=np.ones(batch, dtype=bool), residual=np.zeros(batch))
+
+
+def peaks(model: StateSpace, elements: PathElements, peak, frequency, loads, x0, e0, duration,
+          outputs, *, steps_per_half_cycle=64, start_time=0.0):
+    """The largest value over a transient of each output ``y = C x + D u`` (node voltages, say).
+
+    The march of :func:`step_response` without keeping its trajectory: the same steps and the
+    same states, so the same peaks as the maximum over its samples (to rounding: the output
+    is summed in the march's own order), in a fraction of the memory.
+
+    Parameters
+    ----------
+    model, elements, peak, frequency, loads, x0, e0, duration, steps_per_half_cycle, start_time
+        As for :func:`step_response`.
+    outputs : (C, D)
+        A linear output map of the ladder, shapes (B, K, n) and (B, K, m) (e.g.
+        ``model.node_voltage``).
+
+    Returns
+    -------
+    ndarray (B, K)
+        [same as the outputs]
+    """
+    frequency = float(np.atleast_1d(frequency)[0])
+    omega = 2 * np.pi * frequency
+    h = 0.5 / frequency / steps_per_half_cycle
+    steps = int(np.ceil(duration / h))
+    disc = discretise(model, h)
+    c_row, d_row = _output_row(model)
+    return _march(disc, c_row, d_row, loads, np.asarray(peak, float), omega, x0, e0, elements,
+                  steps, start_time, False, outputs=outputs)

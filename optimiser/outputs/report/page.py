@@ -18,7 +18,9 @@ from optimiser.codesign.objective_table import OBJECTIVES
 from optimiser.outputs.branch_figures import branch_markdown
 from optimiser.outputs.report.front import Front, _extremes, _section_rows, read_front
 from optimiser.outputs.report.markup import _Cell, _e, _markdown_html, _num, _slug, _table
-from optimiser.outputs.report.plots import _csv_values, _figure_html, _front_plot, _sag_life_plot
+from optimiser.outputs.report.plots import (_csv_values, _figure, _figure_html, _front_plot,
+                                           _sag_life_plot, _svg)
+from optimiser.outputs.yield_figures import design_yield_html, yield_html
 from optimiser.outputs.report.sections import _design_section
 
 
@@ -42,7 +44,7 @@ def _page(title: str, lede: str, toc, body: str) -> str:
         version=_e(__version__), style=_asset("style.css"), script=_asset("script.js"))
 
 
-def design_report(design, *, title=None) -> str:
+def design_report(design, *, title=None, builds=None) -> str:
     """One self-contained HTML page for one design.
 
     Parameters
@@ -51,6 +53,8 @@ def design_report(design, *, title=None) -> str:
         A design file (YAML), a dict of the same shape, or a loaded :class:`Design`.
     title : str, optional
         The page title; the file name when not given.
+    builds : YieldResult, optional
+        Sampled builds of the design (``--yield N``): their yield part is added.
 
     Returns
     -------
@@ -68,6 +72,8 @@ def design_report(design, *, title=None) -> str:
     title = title or f"Railwright report: {name}"
     section = _design_section(d, a, anchor, f"Design {name}", design_file=path,
                               subtitle=_e(str(path)) if path is not None else "")
+    if builds is not None:
+        section += design_yield_html(builds, anchor, _figure, _svg, _figure_html)
     toc = [(anchor, f"Design {name}")] + [(f"{anchor}-{k}", t) for k, t in _SUBSECTIONS]
     lede = ("One HV supply: its waveforms, sag, switch-on, checks, transformer, parts and "
             "cautions.")
@@ -237,6 +243,7 @@ def results_report(result_dir, *, link_base=None) -> str:
             design, a, anchors[r], f"Design {front.ids[r]}", badge=badge, extra=extra,
             design_file=path, subtitle=f'<a href="#front">back to the front</a> \u00b7 '
                                        f"{_e(path.name)}"))
+        body.append(yield_html(root, front.ids[r], _figure, _svg, _figure_html))
         toc.append((anchors[r], f"Design {front.ids[r]}" + (f" ({', '.join(roles)})"
                                                            if roles else "")))
     title = f"Railwright run: {root.resolve().name}"
