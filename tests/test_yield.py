@@ -190,3 +190,21 @@ def test_sampled_builds_agree_with_ngspice():
                         for n in build.nodes]
         problems = discrepancies(got, expected)
         assert not problems, f"build {j}:\n  " + "\n  ".join(problems)
+
+
+def test_a_search_with_robustness_reports_each_listed_designs_yield(tmp_path):
+    # demo-valve asks robustness: {samples: 200, min_yield: 0.9} (issue 14's acceptance)
+    import pandas as pd
+
+    from optimiser.cli import main
+
+    out = tmp_path / "run"
+    assert main(["optimise", "specs/demo-valve.yaml", "--out", str(out), "--quiet"]) == 0
+    pareto = pd.read_csv(out / "pareto.csv")
+    column = [c for c in pareto.columns if c.split(" ")[0] == "yield"]
+    assert column and pareto[column[0]].between(0, 1).all()
+    branches = pd.read_csv(out / "branches.csv")
+    met = branches[branches["feasible"]]
+    assert len(met) and met["yield"].between(0, 1).all()
+    summary = (out / "summary.md").read_text(encoding="utf-8")
+    assert "sampled builds meet every constraint" in summary

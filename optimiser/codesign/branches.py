@@ -167,7 +167,7 @@ def branch_rows(opt, ids_of) -> list:
         c = fr.iloc[cheap]
         row.update({
             "cheapest": ids_of.get(cheap, ""), "cheapest_cost": float(c["cost"]),
-            f"closest_to_target" if spec.sag is not None else "stiffest": ids_of.get(close, ""),
+            "closest_to_target" if spec.sag is not None else "stiffest": ids_of.get(close, ""),
             "longest_life": ids_of.get(longest, ""),
             "cost_premium": float(c["cost"]) - cheapest_all,
             "sag_depth_pct": 100 * float(c["regulation"]),
@@ -175,6 +175,9 @@ def branch_rows(opt, ids_of) -> list:
             "shortest_life_h": float(c["life"]), "rectifier_stress": float(c["rectifier_stress"]),
             "life_range_h": f"{np.nanmin(life):.3g}-{np.nanmax(life):.3g}",
             "binding_constraints": ""})
+        if "yield" in fr:  # the spec's robustness: each listed design's yield of sampled builds
+            row.update({"yield": float(c["yield"]),
+                        "best_yield": float(np.nanmax(sub["yield"].to_numpy(float)))})
         out.append(row)
     return out
 

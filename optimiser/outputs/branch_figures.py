@@ -31,7 +31,8 @@ _COLUMNS = (("branch", "branch"), ("feasible", "meets the spec"), ("designs", "o
             ("longest_life", "longest life"), ("sag_depth_pct", "sag [%]"),
             ("attack_time_s", "attack [s]"), ("recovery_time_s", "recovery [s]"),
             ("shortest_life_h", "shortest part life [h]"),
-            ("rectifier_stress", "rectifier stress"), ("binding_constraints", "what binds"))
+            ("rectifier_stress", "rectifier stress"), ("yield", "yield (share of builds passing)"),
+            ("best_yield", "best yield in the branch"), ("binding_constraints", "what binds"))
 
 
 def _figure(width, height):
