@@ -80,3 +80,17 @@ def test_derated_capacitor_voltage_margin_of_the_recommended_design():
     a = opt.scored.table.assessments[opt.knee]
     volts = [c for c in a.checks if c.name.endswith(".voltage") and c.name.startswith("capacitor")]
     assert volts and all(c.rating_ratio <= 0.90 + 1e-12 for c in volts)
+
+
+def test_refinement_is_reproducible_and_keeps_each_design_in_its_branch():
+    from optimiser.codesign import refine
+    from optimiser.codesign.encoding import CURRENT_COLUMN
+
+    binding = CoDesign(load_spec("specs/demo-valve.yaml"))
+    X = nsga.random_population(binding.variables, 40, seed=3)
+    runs = [refine.refine(binding, X, binding.niche, CURRENT_COLUMN, rounds=2,
+                          evaluate=binding.screen.cautious) for _ in range(2)]
+    np.testing.assert_array_equal(runs[0], runs[1])
+    # every branch the start held is still there, and a move never changes the rectifier
+    assert set(binding.niche(runs[0])) == set(binding.niche(X))
+    assert set(runs[0][:, 4]) <= set(X[:, 4])

@@ -30,10 +30,12 @@ from optimiser.codesign.nsga import Variable
 from optimiser.codesign.options import RATING_CHOICES, Options
 from optimiser.formats.units import round_significant
 
-__all__ = ["RECTIFIER_COLUMN", "Candidate", "Encoding"]
+__all__ = ["RECTIFIER_COLUMN", "CURRENT_COLUMN", "Candidate", "Encoding"]
 
 #: Column of the rectifier option (the columns before it are the transformer's).
 RECTIFIER_COLUMN = 4
+#: Column of the HV current rating (log10 [A]).
+CURRENT_COLUMN = 1
 
 
 @dataclass(frozen=True)

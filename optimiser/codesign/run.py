@@ -16,7 +16,8 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 import optimiser.codesign.nsga as search
-from optimiser.codesign import branches, objective_table
+from optimiser.codesign import branches, objective_table, refine
+from optimiser.codesign.encoding import CURRENT_COLUMN
 from optimiser.codesign.objectives import Unmet
 from optimiser.codesign.problem import CoDesign
 from optimiser.codesign.robustness import assess_robustness
@@ -134,6 +135,10 @@ def optimise(spec: Spec, *, population=None, generations=None, seed=None, worker
                         workers=workers or settings.workers, progress=progress)
     # the search steered by the screen; what it kept is assessed in full, and only that counts
     kept = np.vstack([result.X, result.archive]) if len(result.archive) else result.X
+    # each branch refined by local moves on the screen not eased (codesign.refine): on a
+    # constraint's edge the eased screen passes designs the full tier fails; re-checked too
+    kept = np.vstack([kept, refine.refine(binding, kept, binding.niche, CURRENT_COLUMN,
+                                          evaluate=binding.screen.cautious)])
     candidates = list(dict.fromkeys(binding.decode(kept)))
     scored = binding.score(binding.designs(candidates))
 

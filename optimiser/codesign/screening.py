@@ -107,6 +107,13 @@ class Screen:
         F, G, _ = self._score(X)
         return F, G - self.slack
 
+    def cautious(self, X):
+        """(F, G) of a population matrix as the screen computes them, not eased: leaning to
+        caution where it is off, for the refinement after the search
+        (:mod:`optimiser.codesign.refine`), whose designs sit on a constraint's edge."""
+        F, G, _ = self._score(X)
+        return F, G
+
     def check_ratio_names(self, X):
         """Names of the check ratios the screen computes for a population."""
         return list(self._score(X)[2])
