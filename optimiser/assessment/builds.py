@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import os
 from concurrent.futures import ThreadPoolExecutor
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numba
@@ -46,15 +47,37 @@ class Builds:
 
     Attributes
     ----------
-    designs : list of Design
-        One per build, its corners collapsed to its sampled values.
+    designs : BuildList
+        One Design per build, its corners collapsed to its sampled values.
     factors : dict of str -> ndarray
         Each sampled quantity over its nominal value [-] (``capacitors``, ``feeds``,
         ``bleeders`` shaped (N, nodes); the others (N,)), and ``ambient`` [degC].
     """
 
-    designs: list
+    designs: "BuildList"
     factors: dict
+
+
+class BuildList(Sequence):
+    """The builds of one design as a sequence of :class:`Design`, each made when it is read
+    (so that :func:`check_table` makes them in its worker threads, beside the compiled loops).
+
+    All share the design's ladder shape, mains frequency and kind of rectifier path: the
+    factors scale values, never add or remove a part.
+    """
+
+    def __init__(self, design: Design, factors: dict, count: int):
+        self.design, self.factors, self.count = design, factors, count
+
+    def __len__(self):
+        return self.count
+
+    def __getitem__(self, j):
+        if isinstance(j, slice):
+            return [self[i] for i in range(*j.indices(self.count))]
+        if not -self.count <= j < self.count:
+            raise IndexError(j)
+        return _build(self.design, self.factors, j % self.count)
 
 
 def _band(spread: Spread, minus, plus):
@@ -123,7 +146,7 @@ def sample_builds(design, count: int, seed: int = 0, tolerances: Tolerances | No
     hot = tol.ambient.max if tol.ambient.max is not None else c.ambient
     cold = min(tol.ambient.min, hot)
     f["ambient"] = cold + (hot - cold) * rng.random(count)
-    return Builds(designs=[_build(d, f, j) for j in range(count)], factors=f)
+    return Builds(designs=BuildList(d, f, count), factors=f)
 
 
 def _build(d: Design, f: dict, j: int) -> Design:
@@ -262,8 +285,8 @@ def assess_yield(design, count: int, seed: int = 0, tolerances=None) -> YieldRes
     YieldResult
     """
     builds = sample_builds(design, count, seed, tolerances)
-    if any(d.switchable for d in builds.designs[:1]):  # a pair: one assessment per position
-        table = assess_many(builds.designs, dynamics=False, lean=True)
+    if builds.designs.design.switchable:  # a pair: one assessment per position
+        table = assess_many(list(builds.designs), dynamics=False, lean=True)
         return yield_of(table.ratios, node_figures(table.frame), seed)
     return yield_of(*check_table(builds.designs), seed)
 
@@ -274,7 +297,8 @@ def check_table(designs, chunk=CHUNK, threads=None):
 
     Parameters
     ----------
-    designs : list of Design
+    designs : list of Design, or BuildList
+        (A :class:`BuildList`'s builds are made chunk by chunk in the threads.)
     chunk : int
         Designs solved together at most (the arrays of a few hundred stay in the caches).
     threads : int, optional
@@ -287,7 +311,9 @@ def check_table(designs, chunk=CHUNK, threads=None):
     (ratios, figures) : DataFrame, DataFrame
         Row per design; a check applying to none of them left out.
     """
-    parts = [m[i:i + chunk] for m in _groups(designs).values() for i in range(0, len(m), chunk)]
+    groups = [range(len(designs))] if isinstance(designs, BuildList) else \
+        _groups(designs).values()  # (one design's builds are of one ladder shape)
+    parts = [list(m[i:i + chunk]) for m in groups for i in range(0, len(m), chunk)]
 
     def table(members):
         if pool_threads > 1:  # the pool fills the cores: each kernel on its thread alone
