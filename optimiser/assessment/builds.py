@@ -25,6 +25,7 @@ import pandas as pd
 from scipy import stats
 
 from optimiser.parts import catalogue as parts
+from optimiser.physics import transients
 from optimiser.inputs.design import Design, load_design
 from optimiser.inputs.tolerances import Spread, Tolerances
 from optimiser.assessment.full import _solve_group, assess_many
@@ -333,10 +334,18 @@ def check_table(designs, chunk=CHUNK, threads=None):
     if not parts:
         return pd.DataFrame(), pd.DataFrame()
     pool_threads = 1
-    first = table(parts[0])  # (which also picks numba's threading layer)
-    if numba.threading_layer() != "workqueue":  # (that one is not safe from two threads)
+    if _threading_layer() != "workqueue":  # (that one is not safe from two threads)
         pool_threads = threads or os.cpu_count() or 1
     with ThreadPoolExecutor(max_workers=pool_threads) as pool:
-        ratios, figures = zip(first, *pool.map(table, parts[1:]))
+        ratios, figures = zip(*pool.map(table, parts))
     ratios = pd.concat(ratios).sort_index()
     return ratios.dropna(axis=1, how="all"), pd.concat(figures).sort_index()
+
+
+def _threading_layer() -> str:
+    """numba's threading layer, started (by a parallel kernel's call on no designs) if it has
+    not been yet."""
+    empty = np.empty((0, 1, 1))
+    transients.output_statistics((empty, np.empty((0, 1, 2))), empty, np.empty((0, 1)),
+                                 np.empty((0, 1)))
+    return numba.threading_layer()
