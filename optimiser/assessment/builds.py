@@ -153,7 +153,7 @@ def sample_builds(design, count: int, seed: int = 0, tolerances: Tolerances | No
 def _build(d: Design, f: dict, j: int) -> Design:
     """Build ``j``: the design at its sampled values, its tolerance corners collapsed."""
     t = d.transformer
-    transformer = t.model_copy(update={
+    transformer = _copy(t, {
         "secondary_voltage": t.secondary_voltage * f["mains"][j] * f["secondary_voltage"][j],
         "secondary_resistance": t.secondary_resistance * f["winding_resistance"][j]})
     nodes = []
@@ -162,25 +162,39 @@ def _build(d: Design, f: dict, j: int) -> Design:
         if node.bleeder is not None:
             update["bleeder"] = node.bleeder * f["bleeders"][j, k]
         if node.feed is not None and node.feed.inductance == 0:  # a resistor, not a choke
-            update["feed"] = node.feed.model_copy(
-                update={"resistance": node.feed.resistance * f["feeds"][j, k]})
-        nodes.append(node.model_copy(update=update))
-    conditions = d.conditions.model_copy(update={
+            update["feed"] = _copy(node.feed, {
+                "resistance": node.feed.resistance * f["feeds"][j, k]})
+        nodes.append(_copy(node, update))
+    conditions = _copy(d.conditions, {
         "mains_low": 0.0, "mains_high": 0.0, "transformer_tolerance": 0.0,
         "capacitor_minus": 0.0, "capacitor_plus": 0.0, "ambient": float(f["ambient"][j])})
     update = {"transformer": transformer, "nodes": nodes, "conditions": conditions}
     r = d.rectifier
     if d.switchable:  # each position's own reservoir spreads like the first node's capacitor
-        positions = {name: p if p.reservoir is None else p.model_copy(update={
-            "reservoir": p.reservoir.model_copy(update={
+        positions = {name: p if p.reservoir is None else _copy(p, {
+            "reservoir": _copy(p.reservoir, {
                 "capacitance": p.reservoir.capacitance * f["capacitors"][j, 0]})})
             for name, p in r.positions.items()}
-        update["rectifier"] = r.model_copy(update={"positions": positions})
-    build = d.model_copy(update=update)
+        update["rectifier"] = _copy(r, {"positions": positions})
+    build = _copy(d, update)
     if d.transformer_design is not None:
         object.__setattr__(build, "_built", d.transformer_design)
     object.__setattr__(build, "_perveance_factor", float(f["perveance"][j]))
     return build
+
+
+def _copy(model, update: dict):
+    """``model.model_copy(update=update)`` by the same steps (a shallow copy, the fields
+    updated and marked set, nothing validated) without pydantic's general path: a build takes
+    eight copies."""
+    new = object.__new__(type(model))
+    object.__setattr__(new, "__dict__", {**model.__dict__, **update})
+    extra, private = model.__pydantic_extra__, getattr(model, "__pydantic_private__", None)
+    object.__setattr__(new, "__pydantic_extra__", None if extra is None else dict(extra))
+    object.__setattr__(new, "__pydantic_fields_set__",
+                       model.__pydantic_fields_set__ | update.keys())
+    object.__setattr__(new, "__pydantic_private__", None if private is None else dict(private))
+    return new
 
 
 @dataclass(frozen=True)
