@@ -169,6 +169,7 @@ class Batch:
                                            "emission_coefficient", "series_resistance",
                                            "perveance")}
         topology = []
+        memo = {}  # each kind of rectifier's parts looked up once a batch
         for b, d in enumerate(designs):
             if (cls.structure_of(d) != structure or d.mains.frequency != frequency
                     or d.valve_path != designs[0].valve_path):
@@ -196,7 +197,7 @@ class Batch:
                         i_load[b, k] = ld.current
                     else:
                         i_load[b, k] = ld.idle_current if loads == "idle" else ld.full_power_current
-            path = _path_elements(d)
+            path = _path_elements(d, memo)
             for key, value in path.items():
                 el[key][b] = value
             topology.append(d.rectifier.topology)
@@ -213,10 +214,17 @@ class Batch:
                    topology=np.array(topology), names=[n.name for n in designs[0].nodes])
 
 
-def _path_elements(design: Design) -> dict:
-    """Per-path element counts and parameters of one design (parts resolved from the catalogue)."""
+def _path_elements(design: Design, memo=None) -> dict:
+    """Per-path element counts and parameters of one design (parts resolved from the
+    catalogue; those of a rectifier named by its parts' names kept in ``memo``)."""
     r = design.rectifier
-    out = path_elements_of(r.topology, r.diode, r.valve)
+    key = (r.topology, r.diode, r.valve)
+    if memo is None or not all(x is None or isinstance(x, str) for x in key):
+        out = path_elements_of(*key)
+    else:
+        if key not in memo:
+            memo[key] = path_elements_of(*key)
+        out = dict(memo[key])
     # a sampled build's own valve (optimiser.assessment.builds) differs from its type's figure
     out["perveance"] *= getattr(design, "_perveance_factor", 1.0)
     return out
