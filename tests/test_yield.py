@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from optimiser.assessment.builds import _build, assess_yield, sample_builds
+from optimiser.assessment.builds import _build, _copy, assess_yield, sample_builds
 from optimiser.assessment.full import assess, assess_many
 from optimiser.assessment.steady_state import evaluate_many
 from optimiser.cli import main
@@ -61,6 +61,20 @@ def test_same_seed_same_builds_and_a_new_seed_new_ones():
     c = assess_yield(VALVE, 40, seed=4)
     assert a.to_dict() == b.to_dict()
     assert a.to_dict() != c.to_dict()
+
+
+def test_a_builds_copy_is_pydantics_model_copy():
+    d = load_design(SPECS / "demo-design-switchable.yaml")
+    cases = [(d.transformer, {"secondary_voltage": 250.0}), (d.nodes[0], {"capacitance": 1e-6}),
+             (d.nodes[1].feed, {"resistance": 900.0}), (d.conditions, {"mains_low": 0.0}),
+             (d, {"nodes": d.nodes[:2]})]
+    for model, update in cases:
+        # Source: pydantic's own model_copy(update=...), which _copy repeats step by step
+        mine, theirs = _copy(model, update), model.model_copy(update=update)
+        assert mine == theirs and mine.__dict__ == theirs.__dict__
+        assert mine.__pydantic_fields_set__ == theirs.__pydantic_fields_set__
+        assert mine.__pydantic_private__ == theirs.__pydantic_private__
+        assert mine.model_dump_json() == theirs.model_dump_json()
 
 
 def test_builds_stay_inside_their_bands():

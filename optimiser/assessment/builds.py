@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import os
 from concurrent.futures import ThreadPoolExecutor
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numba
@@ -24,6 +25,7 @@ import pandas as pd
 from scipy import stats
 
 from optimiser.parts import catalogue as parts
+from optimiser.physics import transients
 from optimiser.inputs.design import Design, load_design
 from optimiser.inputs.tolerances import Spread, Tolerances
 from optimiser.assessment.full import _solve_group, assess_many
@@ -46,15 +48,37 @@ class Builds:
 
     Attributes
     ----------
-    designs : list of Design
-        One per build, its corners collapsed to its sampled values.
+    designs : BuildList
+        One Design per build, its corners collapsed to its sampled values.
     factors : dict of str -> ndarray
         Each sampled quantity over its nominal value [-] (``capacitors``, ``feeds``,
         ``bleeders`` shaped (N, nodes); the others (N,)), and ``ambient`` [degC].
     """
 
-    designs: list
+    designs: "BuildList"
     factors: dict
+
+
+class BuildList(Sequence):
+    """The builds of one design as a sequence of :class:`Design`, each made when it is read
+    (so that :func:`check_table` makes them in its worker threads, beside the compiled loops).
+
+    All share the design's ladder shape, mains frequency and kind of rectifier path: the
+    factors scale values, never add or remove a part.
+    """
+
+    def __init__(self, design: Design, factors: dict, count: int):
+        self.design, self.factors, self.count = design, factors, count
+
+    def __len__(self):
+        return self.count
+
+    def __getitem__(self, j):
+        if isinstance(j, slice):
+            return [self[i] for i in range(*j.indices(self.count))]
+        if not -self.count <= j < self.count:
+            raise IndexError(j)
+        return _build(self.design, self.factors, j % self.count)
 
 
 def _band(spread: Spread, minus, plus):
@@ -123,13 +147,13 @@ def sample_builds(design, count: int, seed: int = 0, tolerances: Tolerances | No
     hot = tol.ambient.max if tol.ambient.max is not None else c.ambient
     cold = min(tol.ambient.min, hot)
     f["ambient"] = cold + (hot - cold) * rng.random(count)
-    return Builds(designs=[_build(d, f, j) for j in range(count)], factors=f)
+    return Builds(designs=BuildList(d, f, count), factors=f)
 
 
 def _build(d: Design, f: dict, j: int) -> Design:
     """Build ``j``: the design at its sampled values, its tolerance corners collapsed."""
     t = d.transformer
-    transformer = t.model_copy(update={
+    transformer = _copy(t, {
         "secondary_voltage": t.secondary_voltage * f["mains"][j] * f["secondary_voltage"][j],
         "secondary_resistance": t.secondary_resistance * f["winding_resistance"][j]})
     nodes = []
@@ -138,25 +162,39 @@ def _build(d: Design, f: dict, j: int) -> Design:
         if node.bleeder is not None:
             update["bleeder"] = node.bleeder * f["bleeders"][j, k]
         if node.feed is not None and node.feed.inductance == 0:  # a resistor, not a choke
-            update["feed"] = node.feed.model_copy(
-                update={"resistance": node.feed.resistance * f["feeds"][j, k]})
-        nodes.append(node.model_copy(update=update))
-    conditions = d.conditions.model_copy(update={
+            update["feed"] = _copy(node.feed, {
+                "resistance": node.feed.resistance * f["feeds"][j, k]})
+        nodes.append(_copy(node, update))
+    conditions = _copy(d.conditions, {
         "mains_low": 0.0, "mains_high": 0.0, "transformer_tolerance": 0.0,
         "capacitor_minus": 0.0, "capacitor_plus": 0.0, "ambient": float(f["ambient"][j])})
     update = {"transformer": transformer, "nodes": nodes, "conditions": conditions}
     r = d.rectifier
     if d.switchable:  # each position's own reservoir spreads like the first node's capacitor
-        positions = {name: p if p.reservoir is None else p.model_copy(update={
-            "reservoir": p.reservoir.model_copy(update={
+        positions = {name: p if p.reservoir is None else _copy(p, {
+            "reservoir": _copy(p.reservoir, {
                 "capacitance": p.reservoir.capacitance * f["capacitors"][j, 0]})})
             for name, p in r.positions.items()}
-        update["rectifier"] = r.model_copy(update={"positions": positions})
-    build = d.model_copy(update=update)
+        update["rectifier"] = _copy(r, {"positions": positions})
+    build = _copy(d, update)
     if d.transformer_design is not None:
         object.__setattr__(build, "_built", d.transformer_design)
     object.__setattr__(build, "_perveance_factor", float(f["perveance"][j]))
     return build
+
+
+def _copy(model, update: dict):
+    """``model.model_copy(update=update)`` by the same steps (a shallow copy, the fields
+    updated and marked set, nothing validated) without pydantic's general path: a build takes
+    eight copies."""
+    new = object.__new__(type(model))
+    object.__setattr__(new, "__dict__", {**model.__dict__, **update})
+    extra, private = model.__pydantic_extra__, getattr(model, "__pydantic_private__", None)
+    object.__setattr__(new, "__pydantic_extra__", None if extra is None else dict(extra))
+    object.__setattr__(new, "__pydantic_fields_set__",
+                       model.__pydantic_fields_set__ | update.keys())
+    object.__setattr__(new, "__pydantic_private__", None if private is None else dict(private))
+    return new
 
 
 @dataclass(frozen=True)
@@ -262,8 +300,8 @@ def assess_yield(design, count: int, seed: int = 0, tolerances=None) -> YieldRes
     YieldResult
     """
     builds = sample_builds(design, count, seed, tolerances)
-    if any(d.switchable for d in builds.designs[:1]):  # a pair: one assessment per position
-        table = assess_many(builds.designs, dynamics=False, lean=True)
+    if builds.designs.design.switchable:  # a pair: one assessment per position
+        table = assess_many(list(builds.designs), dynamics=False, lean=True)
         return yield_of(table.ratios, node_figures(table.frame), seed)
     return yield_of(*check_table(builds.designs), seed)
 
@@ -274,7 +312,8 @@ def check_table(designs, chunk=CHUNK, threads=None):
 
     Parameters
     ----------
-    designs : list of Design
+    designs : list of Design, or BuildList
+        (A :class:`BuildList`'s builds are made chunk by chunk in the threads.)
     chunk : int
         Designs solved together at most (the arrays of a few hundred stay in the caches).
     threads : int, optional
@@ -287,7 +326,9 @@ def check_table(designs, chunk=CHUNK, threads=None):
     (ratios, figures) : DataFrame, DataFrame
         Row per design; a check applying to none of them left out.
     """
-    parts = [m[i:i + chunk] for m in _groups(designs).values() for i in range(0, len(m), chunk)]
+    groups = [range(len(designs))] if isinstance(designs, BuildList) else \
+        _groups(designs).values()  # (one design's builds are of one ladder shape)
+    parts = [list(m[i:i + chunk]) for m in groups for i in range(0, len(m), chunk)]
 
     def table(members):
         if pool_threads > 1:  # the pool fills the cores: each kernel on its thread alone
@@ -307,10 +348,18 @@ def check_table(designs, chunk=CHUNK, threads=None):
     if not parts:
         return pd.DataFrame(), pd.DataFrame()
     pool_threads = 1
-    first = table(parts[0])  # (which also picks numba's threading layer)
-    if numba.threading_layer() != "workqueue":  # (that one is not safe from two threads)
+    if _threading_layer() != "workqueue":  # (that one is not safe from two threads)
         pool_threads = threads or os.cpu_count() or 1
     with ThreadPoolExecutor(max_workers=pool_threads) as pool:
-        ratios, figures = zip(first, *pool.map(table, parts[1:]))
+        ratios, figures = zip(*pool.map(table, parts))
     ratios = pd.concat(ratios).sort_index()
     return ratios.dropna(axis=1, how="all"), pd.concat(figures).sort_index()
+
+
+def _threading_layer() -> str:
+    """numba's threading layer, started (by a parallel kernel's call on no designs) if it has
+    not been yet."""
+    empty = np.empty((0, 1, 1))
+    transients.output_statistics((empty, np.empty((0, 1, 2))), empty, np.empty((0, 1)),
+                                 np.empty((0, 1)))
+    return numba.threading_layer()

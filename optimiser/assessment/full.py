@@ -299,7 +299,14 @@ def _check_figures(designs, valves, diodes, f, surge, charge_peak, discharge):
     """The figures the check table reads (:class:`optimiser.assessment.checks.CheckFigures`),
     one row per design."""
     nodes = [[d.nodes[k] for d in designs] for k in range(len(designs[0].nodes))]
-    series = [[parts.find_part("capacitor", n.capacitor_series or d.conditions.capacitor_series)
+    found = {}  # each capacitor series looked up once
+
+    def find(name):
+        if name not in found:
+            found[name] = parts.find_part("capacitor", name)
+        return found[name]
+
+    series = [[find(n.capacitor_series or d.conditions.capacitor_series)
                for n, d in zip(ns, designs)] for ns in nodes]
     rated = np.column_stack([[n.rated_voltage or np.nan for n in ns] for ns in nodes])
     surge_v = np.column_stack([[s.rating(r).surge if np.isfinite(r) and _has_rating(s, r)

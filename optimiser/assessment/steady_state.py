@@ -14,7 +14,7 @@ import pandas as pd
 from optimiser.physics import ladder
 from optimiser.physics import rectifier
 from optimiser.physics import supply
-from optimiser.physics.transients import node_outputs
+from optimiser.physics.transients import node_outputs, output_statistics
 from optimiser.inputs.design import Design, load_design
 
 __all__ = ["NodeFigures", "SupplyResult", "Batch", "evaluate", "evaluate_many", "solve_batch",
@@ -169,6 +169,7 @@ class Batch:
                                            "emission_coefficient", "series_resistance",
                                            "perveance")}
         topology = []
+        memo = {}  # each kind of rectifier's parts looked up once a batch
         for b, d in enumerate(designs):
             if (cls.structure_of(d) != structure or d.mains.frequency != frequency
                     or d.valve_path != designs[0].valve_path):
@@ -196,7 +197,7 @@ class Batch:
                         i_load[b, k] = ld.current
                     else:
                         i_load[b, k] = ld.idle_current if loads == "idle" else ld.full_power_current
-            path = _path_elements(d)
+            path = _path_elements(d, memo)
             for key, value in path.items():
                 el[key][b] = value
             topology.append(d.rectifier.topology)
@@ -213,10 +214,17 @@ class Batch:
                    topology=np.array(topology), names=[n.name for n in designs[0].nodes])
 
 
-def _path_elements(design: Design) -> dict:
-    """Per-path element counts and parameters of one design (parts resolved from the catalogue)."""
+def _path_elements(design: Design, memo=None) -> dict:
+    """Per-path element counts and parameters of one design (parts resolved from the
+    catalogue; those of a rectifier named by its parts' names kept in ``memo``)."""
     r = design.rectifier
-    out = path_elements_of(r.topology, r.diode, r.valve)
+    key = (r.topology, r.diode, r.valve)
+    if memo is None or not all(x is None or isinstance(x, str) for x in key):
+        out = path_elements_of(*key)
+    else:
+        if key not in memo:
+            memo[key] = path_elements_of(*key)
+        out = dict(memo[key])
     # a sampled build's own valve (optimiser.assessment.builds) differs from its type's figure
     out["perveance"] *= getattr(design, "_perveance_factor", 1.0)
     return out
@@ -322,11 +330,20 @@ def figures(batch: Batch, model: ladder.StateSpace, waves: supply.Waveforms,
     src = waves.source[:, :-1]
 
     node_v = node_outputs(model.node_voltage, xs, es, loads)
-    cap_i = node_outputs(model.capacitor_current, xs, es, loads)
-    feed_i = node_outputs(model.feed_current, xs, es, loads)
     dc = node_v.mean(axis=1)
-    node_peak = node_v.max(axis=1)
-    cap_rms = np.sqrt((cap_i ** 2).mean(axis=1))
+    if checked_only:  # the check figures to rounding in one compiled pass (the B+ exact)
+        maps = [model.node_voltage, model.capacitor_current, model.feed_current]
+        mean, rms, top = output_statistics(tuple(np.concatenate(m, axis=1) for m in zip(*maps)),
+                                           xs, es, loads)
+        n_nodes = dc.shape[1]
+        node_peak, cap_rms = top[:, :n_nodes], rms[:, n_nodes:2 * n_nodes]
+        feed_dc, feed_rms = mean[:, 2 * n_nodes:], rms[:, 2 * n_nodes:]
+    else:
+        cap_i = node_outputs(model.capacitor_current, xs, es, loads)
+        feed_i = node_outputs(model.feed_current, xs, es, loads)
+        node_peak = node_v.max(axis=1)
+        cap_rms = np.sqrt((cap_i ** 2).mean(axis=1))
+        feed_rms, feed_dc = np.sqrt((feed_i ** 2).mean(axis=1)), feed_i.mean(axis=1)
 
     i_mean = cur.mean(axis=1)
     i_sq = (cur ** 2).mean(axis=1)
@@ -358,8 +375,8 @@ def figures(batch: Batch, model: ladder.StateSpace, waves: supply.Waveforms,
         "dc_voltage": dc,
         "capacitor_rms_current": cap_rms,
         "peak_voltage": node_peak,
-        "feed_rms_current": np.sqrt((feed_i ** 2).mean(axis=1)),
-        "feed_dc_current": feed_i.mean(axis=1),
+        "feed_rms_current": feed_rms,
+        "feed_dc_current": feed_dc,
         "rectifier_peak_current": peak_i,
         "rectifier_average_current": 0.5 * i_mean,
         "piv": piv,

@@ -160,10 +160,12 @@ def path_step(q, beta, silicon_count, valve_count, saturation_current, emission_
         if valve:
             i = perveance * z ** 3
             di = 3.0 * perveance * z * z
-            v = z * z + silicon_count * (nvt * np.log1p(i / saturation_current)
-                                         + series_resistance * i)
-            dv = 2.0 * z + silicon_count * (nvt / (saturation_current + i)
-                                            + series_resistance) * di
+            v = z * z
+            dv = 2.0 * z
+            if silicon_count > 0.0:  # (a valve alone: the silicon's terms, finite, times 0)
+                v += silicon_count * (nvt * np.log1p(i / saturation_current)
+                                      + series_resistance * i)
+                dv += silicon_count * (nvt / (saturation_current + i) + series_resistance) * di
             g = i + beta * v - q
             slope = di + beta * dv
         else:
@@ -183,9 +185,12 @@ def path_step(q, beta, silicon_count, valve_count, saturation_current, emission_
     else:
         i = saturation_current * np.expm1(z / nvt)
     i = max(i, 1e-30)
-    r_si = nvt / (saturation_current + i) + series_resistance
-    d = silicon_count * (nvt * np.log1p(i / saturation_current) + series_resistance * i)
-    r = silicon_count * r_si
+    d = 0.0
+    r = 0.0
+    if silicon_count > 0.0:
+        r_si = nvt / (saturation_current + i) + series_resistance
+        d = silicon_count * (nvt * np.log1p(i / saturation_current) + series_resistance * i)
+        r = silicon_count * r_si
     if valve:
         w = np.cbrt(i / perveance)
         d += valve_count * w * w

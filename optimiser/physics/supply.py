@@ -89,12 +89,17 @@ def discretise(model: StateSpace, step: float) -> Discretisation:
     Returns
     -------
     Discretisation
+        Kept on the model, so a model is discretised once per step (the switch-on surge's
+        step is the steady state's).
 
     References
     ----------
     .. [1] G. F. Franklin, J. D. Powell, M. Workman, Digital Control of Dynamic Systems, 3rd ed.,
        1998, sec. 6.3 (triangle-hold equivalent, computed from one augmented matrix exponential).
     """
+    memo = model.__dict__.setdefault("_discretised", {})
+    if step in memo:
+        return memo[step]
     A, B = model.A, model.B
     batch, n, _ = A.shape
     m = B.shape[2]
@@ -106,7 +111,9 @@ def discretise(model: StateSpace, step: float) -> Discretisation:
     phi = big[:, :n, :n]
     gamma0 = big[:, :n, n:n + m]
     gamma1 = big[:, :n, n + m:]
-    return Discretisation(step=step, phi=phi, input_now=gamma0 - gamma1, input_next=gamma1)
+    memo[step] = Discretisation(step=step, phi=phi, input_now=gamma0 - gamma1,
+                                input_next=gamma1)
+    return memo[step]
 
 
 @dataclass(frozen=True)
