@@ -9,7 +9,13 @@ A *definition* is any object with
 - optionally ``shown(name, search value) -> str``: an objective's best value as the progress
   line gives it,
 - optionally ``niche(X) -> labels (B,)``: rows with different labels never compete for
-  survival (:class:`NicheSurvival`), so that each niche keeps its own front.
+  survival (:class:`NicheSurvival`), so that each niche keeps its own front,
+- optionally ``repair(X) -> X``: applied to every design the search makes, after the integer
+  columns are rounded (:class:`IntegerRepair`),
+- optionally ``recalibrate(X)``: called once, halfway through the run, with the population and
+  the archive of the best designs found; the definition may then evaluate differently (e.g. a
+  cheap model corrected against a full one on designs that matter), so the search re-evaluates
+  its archive and goes on from its population, which the next generation re-evaluates.
 
 :func:`run` searches it with a fixed generation budget (in three objectives the whole population
 soon becomes non-dominated, so tolerance-based stopping would never stop), reproducibly from a
@@ -100,14 +106,19 @@ def non_dominated(F, feasible=None) -> np.ndarray:
 
 
 class IntegerRepair(Repair):
-    """Round the integer columns (and only those) to the nearest index inside their bounds."""
+    """Round the integer columns (and only those) to the nearest index inside their bounds,
+    then apply the definition's own ``repair`` where it has one (rounded again after it)."""
 
     def __init__(self, variables):
         super().__init__()
         self.lower, self.upper, self.integer, _, _ = _bounds(variables)
 
     def _do(self, problem, X, **kwargs):
-        return _repair_matrix(X, self.lower, self.upper, self.integer)
+        X = _repair_matrix(X, self.lower, self.upper, self.integer)
+        own = getattr(getattr(problem, "definition", None), "repair", None)
+        if own is not None and len(X):
+            X = _repair_matrix(own(X), self.lower, self.upper, self.integer)
+        return X
 
 
 class IndexResetMutation(PM):
@@ -257,6 +268,21 @@ class VectorProblem(Problem):
         self._archive(np.asarray(x, float)[feasible], F[feasible])
         self.archive_time += time.perf_counter() - start
 
+    def rescreen_archive(self):
+        """Evaluate the archive again (after the definition changed how it evaluates) and keep
+        what is still feasible and non-dominated."""
+        X = self.archive_X
+        self.archive_X = np.empty((0, X.shape[1]))
+        self.archive_F = np.empty((0, self.n_obj))
+        if not len(X):
+            return
+        F, G = self.definition.evaluate(X)
+        F = np.asarray(F, float).reshape(len(X), self.n_obj)
+        G = np.asarray(G, float).reshape(len(X), self.n_constraints)
+        self.evaluations += len(X)
+        feasible = np.all(G <= 0, axis=1)
+        self._archive(X[feasible], F[feasible])
+
     def _archive(self, X, F):
         """Keep the feasible non-dominated designs seen so far (at most ``archive_size``,
         evenly spread in the first objective)."""
@@ -378,7 +404,7 @@ def _make_callback(objective_names, history, bar, shown=None):
             feasible = pop.get("FEAS").ravel()
             best = {name: (float(np.min(F[feasible, i])) if feasible.any() else float("nan"))
                     for i, name in enumerate(objective_names)}
-            entry = {"generation": int(algorithm.n_gen), "feasible": int(feasible.sum()), **best}
+            entry = {"generation": len(history) + 1, "feasible": int(feasible.sum()), **best}
             if not feasible.any():
                 entry["least_violation"] = float(np.min(pop.get("CV")))
             history.append(entry)
@@ -393,6 +419,22 @@ def _make_callback(objective_names, history, bar, shown=None):
                 bar.update(1)
 
     return _Watch()
+
+
+#: Added to the seed for the second half of a run with a halfway ``recalibrate`` (any fixed
+#: number: the halves draw from generators of their own).
+STAGE_SEED = 7919
+
+
+def _pool(definition, workers):
+    """Worker processes holding the definition (None for one worker), started now: before a
+    progress bar's monitor thread exists (forking a process that runs threads can deadlock)."""
+    if workers <= 1:
+        return None
+    pool = ProcessPoolExecutor(max_workers=workers, initializer=_worker_init,
+                               initargs=(definition,))
+    list(pool.map(_worker_ready, range(workers)))
+    return pool
 
 
 def run(definition, population=100, generations=100, seed=1, workers=1, progress=False,
@@ -422,6 +464,11 @@ def run(definition, population=100, generations=100, seed=1, workers=1, progress
     initial : ndarray, optional
         Starting population (rows of the encoding); random if not given.
 
+    With a definition's ``recalibrate``, at least four generations and one worker (worker
+    processes would keep the definition as it was), the run is made in two halves: after the
+    first, ``recalibrate`` is called with its population and archive, and the second starts
+    from that population (seeded ``seed + STAGE_SEED``).
+
     Returns
     -------
     SearchResult
@@ -432,25 +479,16 @@ def run(definition, population=100, generations=100, seed=1, workers=1, progress
     start = time.perf_counter()
     if getattr(definition, "batch_independent", False):
         workers, chunks = 1, 1
-    pool = ProcessPoolExecutor(max_workers=workers, initializer=_worker_init,
-                               initargs=(definition,)) if workers > 1 else None
-    bar = None
+    # halves only in this process: worker processes would keep the definition as it was
+    recalibrate = getattr(definition, "recalibrate", None) if workers <= 1 else None
+    stages = ([generations // 2, generations - generations // 2]
+              if recalibrate is not None and generations >= 4 else [generations])
+    pool, bar = None, None
     try:
-        if pool is not None:
-            # start every worker now, before a progress bar's monitor thread exists (forking a
-            # process that runs threads can deadlock)
-            list(pool.map(_worker_ready, range(workers)))
+        pool = _pool(definition, workers)
         problem = VectorProblem(definition, pool=pool, workers=workers,
                                 chunks=chunks or max(2, workers), archive_size=population)
         repair = IntegerRepair(problem.variables)
-        kwargs = {}
-        if initial is not None:
-            kwargs["sampling"] = repair._do(problem, np.asarray(initial, float))
-        if hasattr(definition, "niche"):
-            kwargs["survival"] = NicheSurvival(definition.niche)
-        algorithm = NSGA2(pop_size=population, repair=repair, eliminate_duplicates=True,
-                          mutation=IndexResetMutation(problem.variables, eta=20),
-                          return_least_infeasible=True, **kwargs)
         history = []
         if progress:
             from tqdm import tqdm
@@ -459,8 +497,24 @@ def run(definition, population=100, generations=100, seed=1, workers=1, progress
                        leave=False, dynamic_ncols=True)
         callback = _make_callback(list(definition.objective_names), history, bar,
                                   getattr(definition, "shown", None))
-        res = minimize(problem, algorithm, ("n_gen", generations), seed=seed, callback=callback,
-                       verbose=False, copy_algorithm=False)
+        for stage, budget in enumerate(stages):
+            if stage:
+                # halfway: the definition corrects itself on what the search holds, then the
+                # search goes on from its population (re-evaluated as its next generation)
+                held = res.pop.get("X")
+                recalibrate(np.unique(np.vstack([held, problem.archive_X]), axis=0))
+                problem.rescreen_archive()
+                initial = held
+            kwargs = {}
+            if initial is not None:
+                kwargs["sampling"] = repair._do(problem, np.asarray(initial, float))
+            if hasattr(definition, "niche"):
+                kwargs["survival"] = NicheSurvival(definition.niche)
+            algorithm = NSGA2(pop_size=population, repair=repair, eliminate_duplicates=True,
+                              mutation=IndexResetMutation(problem.variables, eta=20),
+                              return_least_infeasible=True, **kwargs)
+            res = minimize(problem, algorithm, ("n_gen", budget), seed=seed + stage * STAGE_SEED,
+                           callback=callback, verbose=False, copy_algorithm=False)
     finally:
         if bar is not None:
             bar.close()

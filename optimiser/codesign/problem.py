@@ -116,6 +116,20 @@ class CoDesign:
         front per branch (:class:`optimiser.codesign.nsga.NicheSurvival`)."""
         return branches.niche_of(self.spec, np.atleast_2d(X)[:, RECTIFIER_COLUMN])
 
+    def repair(self, X):
+        """Rows with the HV current rating raised to what the winding carries, by the screen
+        (:meth:`optimiser.codesign.screening.Screen.sized`); the search applies it to every
+        design it makes (:class:`optimiser.codesign.nsga.IntegerRepair`)."""
+        return self.screen.sized(X)
+
+    def recalibrate(self, X):
+        """Correct the screen's easing per branch on designs assessed in full
+        (:meth:`optimiser.codesign.screening.Screen.recalibrate`): the search calls it halfway
+        with what it holds (:func:`optimiser.codesign.nsga.run`), and :func:`optimise` again
+        before the local search."""
+        X = np.atleast_2d(np.asarray(X, float))
+        self.screen.recalibrate(X, self.evaluate_full(X)[1])
+
     def evaluate(self, X):
         """Objectives and constraints of a population for the search: (F (B, n_obj), G (B, M)),
         from the screening tier (:mod:`optimiser.codesign.screening`). What the search keeps is

@@ -10,11 +10,23 @@ set is moved one step in one variable at a time (one index up or down in every i
 voltage step, core, current density, capacitor value, rating step, feed; the HV current rating
 by :data:`CURRENT_STEPS` alone and by :data:`PAIRED_STEPS` together with each of the other
 moves, since it trades the winding's resistance against its rating), the moves are screened
-(not eased: :meth:`optimiser.codesign.screening.Screen.cautious`; the eased screen passes
-designs on a constraint's edge that the full tier fails), and the working set becomes the
-feasible non-dominated designs of the branch seen so far, or, while the branch has no feasible
-design yet, its :data:`NEAREST` designs of least constraint violation. Only designs new to the
+(by the definition's ``evaluate``: the screen with its easing corrected per branch on the
+search's kept designs assessed in full, :meth:`optimiser.codesign.screening.Screen.recalibrate`),
+and the working set becomes the feasible non-dominated designs of the branch seen so far, or,
+while the branch has no feasible design yet, its :data:`NEAREST` designs of least constraint
+violation. Only designs new to the
 working set are moved in the next round, for at most :data:`ROUNDS` rounds.
+
+One step at a time cannot cross between two corners the core and the wire couple: a smaller
+core fits its windings only at a higher current density, and a design one step off either
+fails the window fill or the temperature rise, so the path between two feasible corners leads
+through infeasible designs. Before the moves, therefore, each branch's :data:`SWEEP_STARTS`
+designs of least violation are swept over every core and every :data:`SWEEP_DENSITY`-th current
+density, each with its own HV current rating and with the least one, which the definition's
+repair raises to what the winding carries
+(:meth:`optimiser.codesign.screening.Screen.sized`): a rating above the need makes a larger
+wire that may not fit the smaller core. The designs the sweep finds join the working sets the
+moves start from.
 
 The moves do not depend on a random draw and the screen's result for a design does not depend
 on its batch, so the refinement is as reproducible as the search. What it keeps is re-checked
@@ -34,7 +46,8 @@ import numpy as np
 
 from optimiser.codesign import nsga
 
-__all__ = ["refine", "ROUNDS", "NEAREST", "KEEP", "MOVED", "CURRENT_STEPS", "PAIRED_STEPS"]
+__all__ = ["refine", "ROUNDS", "NEAREST", "KEEP", "MOVED", "CURRENT_STEPS", "PAIRED_STEPS",
+           "SWEEP_STARTS", "SWEEP_DENSITY"]
 
 #: Rounds of moves at most. [-]
 ROUNDS = 8
@@ -49,6 +62,11 @@ MOVED = 12
 #: those made together with each other move. [-]
 CURRENT_STEPS = (0.98, 0.99, 0.995, 1.005, 1.01, 1.02)
 PAIRED_STEPS = (0.99, 1.01)
+#: Designs per branch the sweep starts from (those of least constraint violation). [-]
+SWEEP_STARTS = 2
+#: The sweep's step in the current density's index (every step from the lowest, and the
+#: highest). [-]
+SWEEP_DENSITY = 4
 
 
 def _violation(G):
@@ -91,12 +109,14 @@ def _moves(X, variables, current_column):
 
 
 def refine(definition, X, branch_of, current_column, rounds=ROUNDS, evaluate=None):
-    """Pareto local search per branch from a population (see module docstring).
+    """Pareto local search per branch from a population, after a sweep of each branch's core
+    and current density (see module docstring).
 
     Parameters
     ----------
     definition : object
-        ``variables`` and ``evaluate(X) -> (F, G)``.
+        ``variables``, ``evaluate(X) -> (F, G)`` and optionally ``repair(X) -> X`` (applied to
+        every design made here, as the search applies it).
     X : ndarray (B, d)
         Where to start: e.g. the search's final population and archive.
     branch_of : callable X -> labels (B,)
@@ -115,35 +135,73 @@ def refine(definition, X, branch_of, current_column, rounds=ROUNDS, evaluate=Non
     """
     variables = list(definition.variables)
     evaluate = definition.evaluate if evaluate is None else evaluate
+    repair = getattr(definition, "repair", None)
     X = np.unique(np.asarray(X, float), axis=0)
-    F, G = evaluate(X)
-    F, G = np.asarray(F, float), np.asarray(G, float)
+    F, G = (np.asarray(a, float) for a in evaluate(X))
     labels = np.asarray(branch_of(X))
     seen = {row.tobytes() for row in X}
     working = {k: _working(np.flatnonzero(labels == k), F, G) for k in np.unique(labels)}
-    fresh = {k: _spread(rows, F, MOVED) for k, rows in working.items()}
-    for _ in range(rounds):
-        starts = np.concatenate([rows for rows in fresh.values()]) if fresh else []
-        if not len(starts):
-            break
-        moved = _moves(X[np.asarray(starts, int)], variables, current_column)
-        moved = np.unique(moved, axis=0) if len(moved) else moved
-        new = [row.tobytes() not in seen for row in moved]
-        moved = moved[np.asarray(new, bool)] if len(moved) else moved
-        if not len(moved):
-            break
-        seen.update(row.tobytes() for row in moved)
-        f, g = evaluate(moved)
+
+    def add(new):
+        """Screen the designs of ``new`` (repaired) not seen yet and take them into each
+        branch's working set: {branch: its working designs among them}, {} if none was new."""
+        nonlocal X, F, G, labels
+        if len(new) and repair is not None:
+            new = repair(new)
+        new = np.unique(new, axis=0) if len(new) else new
+        new = new[np.asarray([row.tobytes() not in seen for row in new], bool)] if len(new) else new
+        if not len(new):
+            return {}
+        seen.update(row.tobytes() for row in new)
+        f, g = evaluate(new)
         base = len(X)
-        X, F, G = np.vstack([X, moved]), np.vstack([F, f]), np.vstack([G, g])
-        labels = np.concatenate([labels, np.asarray(branch_of(moved))])
+        X, F, G = np.vstack([X, new]), np.vstack([F, f]), np.vstack([G, g])
+        labels = np.concatenate([labels, np.asarray(branch_of(new))])
         fresh = {}
         for k in working:
             rows = np.concatenate([working[k], np.arange(base, len(X))[labels[base:] == k]])
             working[k] = _working(rows, F, G)
-            fresh[k] = _spread(working[k][working[k] >= base], F, MOVED)
+            fresh[k] = working[k][working[k] >= base]
+        return fresh
+
+    starts = np.concatenate([_starts(rows, F, G) for rows in working.values()] or [[]])
+    add(_sweep(X[starts], variables, current_column))
+    fresh = dict(working)
+    for _ in range(rounds):
+        starts = np.concatenate([_spread(rows, F, MOVED) for rows in fresh.values()])
+        if not len(starts):
+            break
+        fresh = add(_moves(X[starts.astype(int)], variables, current_column))
+        if not fresh:
+            break
     keep = np.concatenate([rows for rows in working.values()]) if working else []
     return X[np.asarray(keep, int)]
+
+
+def _starts(rows, F, G):
+    """Of a branch's working set, its :data:`SWEEP_STARTS` designs of least constraint
+    violation, the cheapest first."""
+    rows = np.asarray(rows, int)
+    order = np.lexsort((F[rows, 0], _violation(G[rows])))
+    return rows[order[:SWEEP_STARTS]]
+
+
+def _sweep(X, variables, current_column):
+    """Each row of X at every core and every :data:`SWEEP_DENSITY`-th current density (and the
+    highest), each with its own HV current rating and with the least (which ``repair`` sizes
+    up to what the winding carries). (K, d)"""
+    names = [v.name for v in variables]
+    c, d = names.index("core_stack"), names.index("current_density")
+    cores = np.arange(variables[c].lower, variables[c].upper + 1)
+    densities = np.unique(np.r_[np.arange(variables[d].lower, variables[d].upper + 1,
+                                          SWEEP_DENSITY), variables[d].upper])
+    grid = np.array([(a, b) for a in cores for b in densities], float)
+    out = np.repeat(X, len(grid), axis=0)
+    out[:, c] = np.tile(grid[:, 0], len(X))
+    out[:, d] = np.tile(grid[:, 1], len(X))
+    least = out.copy()
+    least[:, current_column] = variables[current_column].lower
+    return np.vstack([out, least])
 
 
 def _working(rows, F, G):

@@ -3,10 +3,13 @@ knee, and say which constraints no design met.
 
 :func:`optimise` makes the :class:`~optimiser.codesign.problem.CoDesign` of a spec (and its
 screen, calibrated before the first generation), runs NSGA-II on it
-(:func:`optimiser.codesign.nsga.run`, steered by the screen), assesses the final population and
-the search's archive in full (:meth:`~optimiser.codesign.scoring.Scoring.score`), and reports
-only those full figures: the feasible non-dominated designs at the spec's resolution
-(:func:`reported_front`), the knee, the unmet constraints.
+(:func:`optimiser.codesign.nsga.run`, steered by the screen, whose easing is corrected per
+branch halfway on the designs the search holds), corrects the screen once more on the final
+population and the search's archive, refines each branch by a Pareto local search on it
+(:mod:`optimiser.codesign.refine`), assesses all of those in full
+(:meth:`~optimiser.codesign.scoring.Scoring.score`), and reports only those full figures: the
+feasible non-dominated designs at the spec's resolution (:func:`reported_front`), the knee, the
+unmet constraints.
 """
 
 from __future__ import annotations
@@ -133,12 +136,12 @@ def optimise(spec: Spec, *, population=None, generations=None, seed=None, worker
                         generations=generations or settings.generations,
                         seed=settings.seed if seed is None else seed,
                         workers=workers or settings.workers, progress=progress)
-    # the search steered by the screen; what it kept is assessed in full, and only that counts
-    kept = np.vstack([result.X, result.archive]) if len(result.archive) else result.X
-    # each branch refined by local moves on the screen not eased (codesign.refine): on a
-    # constraint's edge the eased screen passes designs the full tier fails; re-checked too
-    kept = np.vstack([kept, refine.refine(binding, kept, binding.niche, CURRENT_COLUMN,
-                                          evaluate=binding.screen.cautious)])
+    # the search steered by the screen (corrected halfway on what it held: CoDesign.recalibrate);
+    # what it kept is corrected on once more, each branch refined by local moves on the screen
+    # (codesign.refine), and all of it assessed in full: only that counts
+    kept = np.unique(np.vstack([result.X, result.archive]), axis=0)
+    binding.recalibrate(kept)
+    kept = np.vstack([kept, refine.refine(binding, kept, binding.niche, CURRENT_COLUMN)])
     candidates = list(dict.fromkeys(binding.decode(kept)))
     scored = binding.score(binding.designs(candidates))
 

@@ -37,7 +37,7 @@ from __future__ import annotations
 import numpy as np
 
 from optimiser.assessment import checks as check_table
-from optimiser.codesign import screen_figures
+from optimiser.codesign import branches, screen_figures
 from optimiser.codesign.screen_parts import PartTables, RectifierOptions, TransformerCache
 
 __all__ = ["Screen"]
@@ -51,6 +51,15 @@ CALIBRATION_QUANTILE = 0.5
 #: Least number of the sample's designs near a limit needed to measure a constraint; with
 #: fewer, the screen is not eased for it.
 CALIBRATION_MINIMUM = 8
+#: A kept design counts as near a limit, for the per-branch correction, within this much of
+#: it (constraints are ratios - 1, or errors in units of their allowance). [-]
+BRANCH_NEAR = 0.25
+#: Least number of a branch's designs near a limit for its correction to be measured.
+BRANCH_MINIMUM = 4
+#: Rounds of :meth:`Screen.sized` (the HV current rating raised to what the winding carries).
+SIZING_ROUNDS = 3
+#: Margin of :meth:`Screen.sized` over the current the screen finds. [-]
+SIZING_MARGIN = 0.002
 
 
 def _nanmax(stack, axis):
@@ -81,6 +90,10 @@ class Screen:
         self.parts = PartTables(binding)
         self.transformers = TransformerCache(binding, self.rectifiers.option_key)
         self.slack = self._calibrate()
+        #: per branch (rows: :func:`optimiser.codesign.branches.branches_of`), a correction to
+        #: the easing measured on designs the search kept (:meth:`recalibrate`); zero until then
+        self.branch_of_option = branches.option_branches(s)
+        self.branch_slack = np.zeros((int(self.branch_of_option.max()) + 1, len(self.slack)))
 
     def _calibrate(self):
         """How much to ease each constraint: on a random sample assessed both ways, the
@@ -105,7 +118,34 @@ class Screen:
         full assessment, estimated, each constraint eased by the error measured when the screen
         was made (:meth:`_calibrate`)."""
         F, G, _ = self._score(X)
-        return F, G - self.slack
+        niche = self.branch_of_option[self.b.choices(X)["rectifier"]]
+        return F, G - self.slack - self.branch_slack[niche]
+
+    def recalibrate(self, X, G_full):
+        """Correct the easing per branch from designs assessed both ways (the search's kept
+        designs, which sit near the limits that bind): for each branch and constraint with at
+        least :data:`BRANCH_MINIMUM` such designs within :data:`BRANCH_NEAR` of the limit, the
+        easing becomes the median excess of the screen over the full value among them (which
+        may tighten the screen where, on that branch, it is optimistic).
+
+        Parameters
+        ----------
+        X : ndarray (B, n_var)
+        G_full : ndarray (B, M)
+            The full assessment's constraints of the same rows.
+        """
+        X = np.atleast_2d(np.asarray(X, float))
+        G_screen = self._score(X)[1]
+        niche = self.branch_of_option[self.b.choices(X)["rectifier"]]
+        out = np.zeros_like(self.branch_slack)
+        for b in range(len(out)):
+            for j in range(G_full.shape[1]):
+                near = ((niche == b) & (np.abs(G_full[:, j]) < BRANCH_NEAR)
+                        & (np.abs(G_screen[:, j]) < 1e5))
+                if near.sum() >= BRANCH_MINIMUM:
+                    excess = float(np.median(G_screen[near, j] - G_full[near, j]))
+                    out[b, j] = excess - self.slack[j]
+        self.branch_slack = out
 
     def cautious(self, X):
         """(F, G) of a population matrix as the screen computes them, not eased: leaning to
@@ -113,6 +153,33 @@ class Screen:
         (:mod:`optimiser.codesign.refine`), whose designs sit on a constraint's edge."""
         F, G, _ = self._score(X)
         return F, G
+
+    def sized(self, X, rounds=SIZING_ROUNDS):
+        """X with each design's HV current rating raised, where the screen finds the winding
+        carrying more than its rating at high mains and full power, to what it carries (times
+        1 + :data:`SIZING_MARGIN`): a winder sizes the wire for the current it will carry, and a
+        design below that fails ``transformer.hv_rms_current`` whatever else it gets right.
+        A rating above the need is left alone (a larger wire is a real choice: less resistance,
+        less sag). The current depends on the winding's resistance and so on the rating, so
+        the raise is repeated ``rounds`` times on the designs still short (it converges: a
+        larger wire raises the current far less than in proportion). [rows of the encoding]"""
+        from optimiser.codesign.encoding import CURRENT_COLUMN
+
+        X = np.array(np.atleast_2d(X), float, copy=True)
+        upper = self.b.variables[CURRENT_COLUMN].upper
+        rows = np.arange(len(X))
+        for _ in range(rounds):
+            if not len(rows):
+                break
+            ratios = self._score(X[rows])[2]
+            ratio = _nanmax(np.column_stack(
+                [v for name, v in ratios.items() if name.endswith("transformer.hv_rms_current")]
+                or [np.full(len(rows), np.nan)]), axis=1)
+            short = np.isfinite(ratio) & (ratio > 1.0)
+            rows = rows[short]
+            X[rows, CURRENT_COLUMN] = np.minimum(
+                X[rows, CURRENT_COLUMN] + np.log10(ratio[short] * (1 + SIZING_MARGIN)), upper)
+        return X
 
     def check_ratio_names(self, X):
         """Names of the check ratios the screen computes for a population."""
