@@ -38,6 +38,7 @@ import numpy as np
 
 from optimiser.assessment import checks as check_table
 from optimiser.codesign import branches, screen_figures
+from optimiser.codesign.encoding import CURRENT_COLUMN
 from optimiser.codesign.screen_parts import PartTables, RectifierOptions, TransformerCache
 
 __all__ = ["Screen"]
@@ -60,6 +61,20 @@ BRANCH_MINIMUM = 4
 SIZING_ROUNDS = 3
 #: Margin of :meth:`Screen.sized` over the current the screen finds. [-]
 SIZING_MARGIN = 0.002
+
+
+def _excess(G_screen, G_full, rows, near, minimum):
+    """Per constraint, the :data:`CALIBRATION_QUANTILE` of the screen's excess over the full
+    value among ``rows`` (bool) within ``near`` of the limit by the full value, where the screen
+    solved the design (a screen value of 1e5 or more marks one it could not); NaN where fewer
+    than ``minimum`` such designs. (M,)"""
+    out = np.full(G_full.shape[1], np.nan)
+    for j in range(G_full.shape[1]):
+        close = rows & (np.abs(G_full[:, j]) < near) & (np.abs(G_screen[:, j]) < 1e5)
+        if close.sum() >= minimum:
+            out[j] = float(np.quantile(G_screen[close, j] - G_full[close, j],
+                                       CALIBRATION_QUANTILE))
+    return out
 
 
 def _nanmax(stack, axis):
@@ -92,8 +107,11 @@ class Screen:
         self.slack = self._calibrate()
         #: per branch (rows: :func:`optimiser.codesign.branches.branches_of`), a correction to
         #: the easing measured on designs the search kept (:meth:`recalibrate`); zero until then
-        self.branch_of_option = branches.option_branches(s)
-        self.branch_slack = np.zeros((int(self.branch_of_option.max()) + 1, len(self.slack)))
+        self.branch_slack = np.zeros((len(branches.branches_of(s)), len(self.slack)))
+        #: (F, G) rows :meth:`sized` screened and left as they were, by the row's bytes, for the
+        #: next :meth:`evaluate` (a design's screen figures do not depend on its batch), so the
+        #: search does not screen a design twice; emptied by each :meth:`evaluate`
+        self._sized_scores = {}
 
     def _calibrate(self):
         """How much to ease each constraint: on a random sample assessed both ways, the
@@ -105,28 +123,37 @@ class Screen:
         X = random_population(self.b.variables, CALIBRATION_SAMPLE, seed=0)
         G_screen = self._score(X)[1]
         G_full = self.b.evaluate_full(X)[1]
-        slack = np.zeros(G_full.shape[1])
-        for j in range(G_full.shape[1]):
-            near = (np.abs(G_full[:, j]) < 1.0) & (np.abs(G_screen[:, j]) < 1e5)
-            if near.sum() >= CALIBRATION_MINIMUM:
-                excess = G_screen[near, j] - G_full[near, j]
-                slack[j] = max(float(np.quantile(excess, CALIBRATION_QUANTILE)), 0.0)
-        return slack
+        excess = _excess(G_screen, G_full, np.ones(len(X), bool), 1.0, CALIBRATION_MINIMUM)
+        return np.where(np.isnan(excess), 0.0, np.maximum(excess, 0.0))
 
     def evaluate(self, X):
         """(F (B, n_obj), G (B, M)) of a population matrix: the objectives and constraints of the
         full assessment, estimated, each constraint eased by the error measured when the screen
-        was made (:meth:`_calibrate`)."""
-        F, G, _ = self._score(X)
-        niche = self.branch_of_option[self.b.choices(X)["rectifier"]]
-        return F, G - self.slack - self.branch_slack[niche]
+        was made (:meth:`_calibrate`) and by its branch's correction (:meth:`recalibrate`).
+        Designs :meth:`sized` has just screened are not screened again."""
+        X = np.atleast_2d(np.asarray(X, float))
+        known, self._sized_scores = self._sized_scores, {}
+        hits = [known.get(row.tobytes()) for row in X]
+        missing = np.flatnonzero([hit is None for hit in hits])
+        if len(missing) == len(X):
+            F, G, _ = self._score(X)
+        else:
+            F = np.empty((len(X), len(self.b.objective_names)))
+            G = np.empty((len(X), len(self.slack)))
+            if len(missing):
+                F[missing], G[missing], _ = self._score(X[missing])
+            for r, hit in enumerate(hits):
+                if hit is not None:
+                    F[r], G[r] = hit
+        return F, G - self.slack - self.branch_slack[self.b.niche(X)]
 
     def recalibrate(self, X, G_full):
         """Correct the easing per branch from designs assessed both ways (the search's kept
         designs, which sit near the limits that bind): for each branch and constraint with at
         least :data:`BRANCH_MINIMUM` such designs within :data:`BRANCH_NEAR` of the limit, the
-        easing becomes the median excess of the screen over the full value among them (which
-        may tighten the screen where, on that branch, it is optimistic).
+        easing becomes the :data:`CALIBRATION_QUANTILE` (the median) of the screen's excess
+        over the full value among them (which may tighten the screen where, on that branch, it
+        is optimistic).
 
         Parameters
         ----------
@@ -136,23 +163,10 @@ class Screen:
         """
         X = np.atleast_2d(np.asarray(X, float))
         G_screen = self._score(X)[1]
-        niche = self.branch_of_option[self.b.choices(X)["rectifier"]]
-        out = np.zeros_like(self.branch_slack)
-        for b in range(len(out)):
-            for j in range(G_full.shape[1]):
-                near = ((niche == b) & (np.abs(G_full[:, j]) < BRANCH_NEAR)
-                        & (np.abs(G_screen[:, j]) < 1e5))
-                if near.sum() >= BRANCH_MINIMUM:
-                    excess = float(np.median(G_screen[near, j] - G_full[near, j]))
-                    out[b, j] = excess - self.slack[j]
-        self.branch_slack = out
-
-    def cautious(self, X):
-        """(F, G) of a population matrix as the screen computes them, not eased: leaning to
-        caution where it is off, for the refinement after the search
-        (:mod:`optimiser.codesign.refine`), whose designs sit on a constraint's edge."""
-        F, G, _ = self._score(X)
-        return F, G
+        niche = self.b.niche(X)
+        excess = np.array([_excess(G_screen, G_full, niche == b, BRANCH_NEAR, BRANCH_MINIMUM)
+                           for b in range(len(self.branch_slack))])
+        self.branch_slack = np.where(np.isnan(excess), 0.0, excess - self.slack)
 
     def sized(self, X, rounds=SIZING_ROUNDS):
         """X with each design's HV current rating raised, where the screen finds the winding
@@ -163,19 +177,19 @@ class Screen:
         less sag). The current depends on the winding's resistance and so on the rating, so
         the raise is repeated ``rounds`` times on the designs still short (it converges: a
         larger wire raises the current far less than in proportion). [rows of the encoding]"""
-        from optimiser.codesign.encoding import CURRENT_COLUMN
-
         X = np.array(np.atleast_2d(X), float, copy=True)
         upper = self.b.variables[CURRENT_COLUMN].upper
         rows = np.arange(len(X))
         for _ in range(rounds):
             if not len(rows):
                 break
-            ratios = self._score(X[rows])[2]
+            F, G, ratios = self._score(X[rows])
             ratio = _nanmax(np.column_stack(
                 [v for name, v in ratios.items() if name.endswith("transformer.hv_rms_current")]
                 or [np.full(len(rows), np.nan)]), axis=1)
             short = np.isfinite(ratio) & (ratio > 1.0)
+            for i in np.flatnonzero(~short):
+                self._sized_scores[X[rows[i]].tobytes()] = (F[i], G[i])
             rows = rows[short]
             X[rows, CURRENT_COLUMN] = np.minimum(
                 X[rows, CURRENT_COLUMN] + np.log10(ratio[short] * (1 + SIZING_MARGIN)), upper)
