@@ -27,7 +27,7 @@ import numpy as np
 
 from optimiser.codesign.assembly import Assembly
 from optimiser.codesign.encoding import Encoding
-from optimiser.codesign import branches, objective_table
+from optimiser.codesign import branches, objective_table, winding
 from optimiser.codesign.encoding import RECTIFIER_COLUMN
 from optimiser.codesign.objectives import Objectives
 from optimiser.codesign.options import Options, rectifier_heater
@@ -118,9 +118,15 @@ class CoDesign:
 
     def repair(self, X):
         """Rows with the HV current rating raised to what the winding carries, by the screen
-        (:meth:`optimiser.codesign.screening.Screen.sized`); the search applies it to every
-        design it makes (:class:`optimiser.codesign.nsga.IntegerRepair`)."""
-        return self.screen.sized(X)
+        (:func:`optimiser.codesign.winding.sized`); the search applies it to every design it
+        evaluates (:class:`optimiser.codesign.nsga.RepairingEvaluator`)."""
+        return winding.sized(self.screen, X)
+
+    def thinnest(self, X):
+        """Rows with the HV winding in the thinnest wire that carries its current and the
+        secondary voltage raised to keep the B+ (:func:`optimiser.codesign.winding.thinnest`):
+        one of the local search's moves (:mod:`optimiser.codesign.refine`)."""
+        return winding.thinnest(self.screen, X)
 
     def recalibrate(self, X):
         """Correct the screen's easing per branch on designs assessed in full

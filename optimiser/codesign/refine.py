@@ -9,7 +9,10 @@ branch's designs are refined by Pareto local search [1]_: every design on the br
 set is moved one step in one variable at a time (one index up or down in every integer column:
 voltage step, core, current density, capacitor value, rating step, feed; the HV current rating
 by :data:`CURRENT_STEPS` alone and by :data:`PAIRED_STEPS` together with each of the other
-moves, since it trades the winding's resistance against its rating), the moves are screened
+moves, since it trades the winding's resistance against its rating), and, where the definition
+has ``thinnest``, wound in the thinnest wire that carries its current with the secondary volts
+that keep its B+ (:func:`optimiser.codesign.winding.thinnest`: one step at a time cannot make
+that move, since the thinner wire alone fails the B+), the moves are screened
 (by the definition's ``evaluate``: the screen with its easing corrected per branch on the
 search's kept designs assessed in full, :meth:`optimiser.codesign.screening.Screen.recalibrate`),
 and the working set becomes the feasible non-dominated designs of the branch seen so far, or,
@@ -22,10 +25,10 @@ core fits its windings only at a higher current density, and a design one step o
 fails the window fill or the temperature rise, so the path between two feasible corners leads
 through infeasible designs. Before the moves, therefore, each branch's :data:`SWEEP_STARTS`
 designs of least violation are swept over every core and every :data:`SWEEP_DENSITY`-th current
-density, each with its own HV current rating and with the least one, which the definition's
-repair raises to what the winding carries
-(:meth:`optimiser.codesign.screening.Screen.sized`): a rating above the need makes a larger
-wire that may not fit the smaller core. The designs the sweep finds join the working sets the
+density, each with its own HV current rating and wound thinnest (with the definition's
+``thinnest``; without it, with the least rating, which the definition's repair raises to what
+the winding carries, :func:`optimiser.codesign.winding.sized`): a rating above the need makes
+a larger wire that may not fit the smaller core. The designs the sweep finds join the working sets the
 moves start from.
 
 The moves do not depend on a random draw and the screen's result for a design does not depend
@@ -115,8 +118,9 @@ def refine(definition, X, branch_of, current_column, rounds=ROUNDS, evaluate=Non
     Parameters
     ----------
     definition : object
-        ``variables``, ``evaluate(X) -> (F, G)`` and optionally ``repair(X) -> X`` (applied to
-        every design made here, as the search applies it).
+        ``variables``, ``evaluate(X) -> (F, G)``, optionally ``repair(X) -> X`` (applied to
+        every design made here, as the search applies it) and ``thinnest(X) -> X`` (a move of
+        every design moved, and of every design of the sweep).
     X : ndarray (B, d)
         Where to start: e.g. the search's final population and archive.
     branch_of : callable X -> labels (B,)
@@ -136,6 +140,7 @@ def refine(definition, X, branch_of, current_column, rounds=ROUNDS, evaluate=Non
     variables = list(definition.variables)
     evaluate = definition.evaluate if evaluate is None else evaluate
     repair = getattr(definition, "repair", None)
+    thinnest = getattr(definition, "thinnest", None)
     X = np.unique(np.asarray(X, float), axis=0)
     F, G = (np.asarray(a, float) for a in evaluate(X))
     labels = np.asarray(branch_of(X))
@@ -165,13 +170,17 @@ def refine(definition, X, branch_of, current_column, rounds=ROUNDS, evaluate=Non
         return fresh
 
     starts = np.concatenate([_starts(rows, F, G) for rows in working.values()] or [[]])
-    add(_sweep(X[starts], variables, current_column))
+    add(_sweep(X[starts.astype(int)], variables, current_column, thinnest))
     fresh = dict(working)
     for _ in range(rounds):
         starts = np.concatenate([_spread(rows, F, MOVED) for rows in fresh.values()])
         if not len(starts):
             break
-        fresh = add(_moves(X[starts.astype(int)], variables, current_column))
+        moved = X[starts.astype(int)]
+        moves = _moves(moved, variables, current_column)
+        if thinnest is not None:
+            moves = np.vstack([moves, thinnest(moved)])
+        fresh = add(moves)
         if not fresh:
             break
     keep = np.concatenate([rows for rows in working.values()]) if working else []
@@ -186,10 +195,10 @@ def _starts(rows, F, G):
     return rows[order[:SWEEP_STARTS]]
 
 
-def _sweep(X, variables, current_column):
+def _sweep(X, variables, current_column, thinnest=None):
     """Each row of X at every core and every :data:`SWEEP_DENSITY`-th current density (and the
     highest), each with its own HV current rating and with the least (which ``repair`` sizes
-    up to what the winding carries). (K, d)"""
+    up to what the winding carries), or with ``thinnest`` applied where given. (K, d)"""
     names = [v.name for v in variables]
     c, d = names.index("core_stack"), names.index("current_density")
     cores = np.arange(variables[c].lower, variables[c].upper + 1)
@@ -199,6 +208,8 @@ def _sweep(X, variables, current_column):
     out = np.repeat(X, len(grid), axis=0)
     out[:, c] = np.tile(grid[:, 0], len(X))
     out[:, d] = np.tile(grid[:, 1], len(X))
+    if thinnest is not None:
+        return np.vstack([out, thinnest(out)])
     least = out.copy()
     least[:, current_column] = variables[current_column].lower
     return np.vstack([out, least])
