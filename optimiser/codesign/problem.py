@@ -128,13 +128,14 @@ class CoDesign:
         one of the local search's moves (:mod:`optimiser.codesign.refine`)."""
         return winding.thinnest(self.screen, X)
 
-    def recalibrate(self, X):
+    def recalibrate(self, X, G_full=None):
         """Correct the screen's easing per branch on designs assessed in full
         (:meth:`optimiser.codesign.screening.Screen.recalibrate`): the search calls it halfway
         with what it holds (:func:`optimiser.codesign.nsga.run`), and :func:`optimise` again
-        before the local search."""
+        before the local search, giving the full assessment's constraints of the rows
+        (``G_full``) it has made anyway."""
         X = np.atleast_2d(np.asarray(X, float))
-        self.screen.recalibrate(X, self.evaluate_full(X)[1])
+        self.screen.recalibrate(X, self.evaluate_full(X)[1] if G_full is None else G_full)
 
     def evaluate(self, X):
         """Objectives and constraints of a population for the search: (F (B, n_obj), G (B, M)),
