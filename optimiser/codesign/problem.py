@@ -128,6 +128,12 @@ class CoDesign:
         one of the local search's moves (:mod:`optimiser.codesign.refine`)."""
         return winding.thinnest(self.screen, X)
 
+    def topped_up(self, X, G):
+        """Of screened rows, those short only of B+, with the secondary raised by the shortfall
+        (:func:`optimiser.codesign.winding.topped_up`): the local search's next step after a
+        move that cost a volt or two (:mod:`optimiser.codesign.refine`)."""
+        return winding.topped_up(self.screen, X, G)
+
     def recalibrate(self, X, G_full=None):
         """Correct the screen's easing per branch on designs assessed in full
         (:meth:`optimiser.codesign.screening.Screen.recalibrate`): the search calls it halfway

@@ -8,6 +8,8 @@ encoding.
 - :func:`thinnest` winds the HV winding in the thinnest wire that carries its current and adds
   the secondary volts that keep the B+ up: one of the local search's moves
   (:mod:`optimiser.codesign.refine`).
+- :func:`topped_up` adds those volts to designs a move left short only of B+: the local
+  search's next step after such a move.
 
 Both read the screen's figures (:meth:`optimiser.codesign.screening.Screen.score`) and leave
 those of the rows they return with it (:meth:`~optimiser.codesign.screening.Screen.remember`),
@@ -20,7 +22,7 @@ import numpy as np
 
 from optimiser.codesign.encoding import CURRENT_COLUMN
 
-__all__ = ["sized", "thinnest", "SIZING_ROUNDS", "SIZING_MARGIN"]
+__all__ = ["sized", "thinnest", "topped_up", "SIZING_ROUNDS", "SIZING_MARGIN"]
 
 #: Rounds of :func:`sized` and of :func:`thinnest`'s voltage raise. [-]
 SIZING_ROUNDS = 3
@@ -91,30 +93,71 @@ def thinnest(screen, X, rounds=SIZING_ROUNDS):
     X : ndarray (B, n_var)
         Rows of the encoding.
     """
-    b = screen.b
     X = np.array(np.atleast_2d(X), float, copy=True)
-    X[:, CURRENT_COLUMN] = b.variables[CURRENT_COLUMN].lower
+    X[:, CURRENT_COLUMN] = screen.b.variables[CURRENT_COLUMN].lower
     X = sized(screen, X, rounds)
-    low = [j for j, c in enumerate(b.constraints) if c.name.endswith(".dc_voltage.low")]
-    grid = b.options.voltage_grid
-    if not low or len(grid) < 2:
-        return X
-    limits = np.array([ns.dc_voltage - ns.window for ns in screen.spec.nodes])
-    scales = np.array([b.constraints[j].scale for j in low])
-    step = grid[1] - grid[0]
+    return _lifted(screen, X, screen.evaluate(X)[1], rounds) if len(X) else X
+
+
+def topped_up(screen, X, G, rounds=SIZING_ROUNDS):
+    """Of designs the screen has judged (``G`` as the search's evaluation gives it), those that
+    fail only a node's lower DC limit, with the secondary voltage raised by the shortfall and
+    the rating sized again, as :func:`thinnest` raises it (``rounds`` times at most); the
+    others are left out.
+
+    A move that saves money in the filter (a smaller capacitor behind a larger resistor, a
+    thinner winding) often costs a volt or two of B+, and the same move with those volts wound
+    on is the designer's next step. [rows of the encoding]
+    """
+    X = np.atleast_2d(np.asarray(X, float))
+    G = np.atleast_2d(np.asarray(G, float))
+    low = _low_columns(screen)
+    if not low or not len(X):
+        return X[:0]
+    others = np.ones(G.shape[1], bool)
+    others[low] = False
+    only = np.all(G[:, others] <= 0, axis=1) & np.any(G[:, low] > 0, axis=1)
+    out = _lifted(screen, X[only], G[only], rounds)
+    return out[out[:, VOLTAGE_COLUMN] > X[only, VOLTAGE_COLUMN]]
+
+
+def _lifted(screen, X, G, rounds):
+    """X (with its constraints G) with the secondary raised where a node is short of B+ and the
+    rating sized again, judged again and repeated, ``rounds`` times at most."""
+    X = np.array(X, float, copy=True)
     rows = np.arange(len(X))
     for _ in range(rounds):
+        voltage = _raised(screen, X[rows], G)
+        short = voltage > X[rows, VOLTAGE_COLUMN]
+        rows = rows[short]
         if not len(rows):
             break
-        shortfall = screen.evaluate(X[rows])[1][:, low] * scales  # [V]
-        secondary = grid[np.clip(np.rint(X[rows, VOLTAGE_COLUMN]).astype(int), 0, len(grid) - 1)]
-        with np.errstate(all="ignore"):
-            per_volt = (limits - shortfall) / secondary[:, None]  # node DC per secondary volt
-            needed = _row_max(list(np.where(shortfall > 0, shortfall / per_volt, np.nan).T),
-                              len(rows))
-        short = np.isfinite(needed) & (needed > 0)
-        rows = rows[short]
-        X[rows, VOLTAGE_COLUMN] = np.minimum(X[rows, VOLTAGE_COLUMN]
-                                             + np.ceil(needed[short] / step), len(grid) - 1)
+        X[rows, VOLTAGE_COLUMN] = voltage[short]
         X[rows] = sized(screen, X[rows], rounds)
+        G = screen.evaluate(X[rows])[1]
     return X
+
+
+def _low_columns(screen):
+    """Columns of G that hold a node's lower DC limit."""
+    return [j for j, c in enumerate(screen.b.constraints) if c.name.endswith(".dc_voltage.low")]
+
+
+def _raised(screen, X, G):
+    """Each design's secondary voltage index raised by its largest B+ shortfall (from its
+    constraints G, eased as the search's evaluation eases them) over that node's DC per
+    secondary volt, within the grid; its own index where no node is short. (B,)"""
+    b = screen.b
+    low = _low_columns(screen)
+    grid = b.options.voltage_grid
+    index = np.rint(X[:, VOLTAGE_COLUMN])
+    if not low or len(grid) < 2 or not len(X):
+        return index
+    limits = np.array([ns.dc_voltage - ns.window for ns in screen.spec.nodes])
+    shortfall = G[:, low] * np.array([b.constraints[j].scale for j in low])  # [V]
+    secondary = grid[np.clip(index.astype(int), 0, len(grid) - 1)]
+    with np.errstate(all="ignore"):
+        per_volt = (limits - shortfall) / secondary[:, None]  # node DC per secondary volt
+        needed = _row_max(list(np.where(shortfall > 0, shortfall / per_volt, np.nan).T), len(X))
+    steps = np.where(np.isfinite(needed) & (needed > 0), np.ceil(needed / (grid[1] - grid[0])), 0)
+    return np.minimum(index + steps, len(grid) - 1)
