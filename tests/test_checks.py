@@ -88,7 +88,7 @@ def test_screen_checks_are_the_tables_functions_of_its_figures(monkeypatch, bind
     screen = binding.screen  # made (and calibrated) before the spy
     seen = _spy(monkeypatch)
     X = random_population(binding.variables, 30, seed=3)
-    _, _, ratios = screen._score(X)
+    _, _, ratios = screen.score(X)
     assert len(seen) == 1, "the screen did not call the check table once"
     fig, columns = seen[0]
     assert len(fig.hv_voltage) == len(X)  # the demo specs have no switchable rectifier
@@ -109,7 +109,7 @@ def test_one_new_entry_reaches_both_tiers(monkeypatch, binding):
     monkeypatch.setattr(check_table, "TABLE", check_table.TABLE + (extra,))
     X = random_population(binding.variables, 10, seed=4)
     full = assess_many(binding.designs(binding.decode(X)), dynamics=False).ratios
-    _, _, ratios = screen._score(X)
+    _, _, ratios = screen.score(X)
     solved = np.isfinite(ratios["test.hv_voltage"])
     assert solved.mean() > 0.5
     np.testing.assert_allclose(ratios["test.hv_voltage"][solved],
@@ -158,7 +158,7 @@ def test_every_entry_has_a_budget():
 
 def test_both_tiers_agree_within_the_screens_budget(binding):
     X = random_population(binding.variables, 40, seed=11)
-    _, _, screen = binding.screen._score(X)
+    _, _, screen = binding.screen.score(X)
     full = assess_many(binding.designs(binding.decode(X)), dynamics=False).ratios
     compared = 0
     for name in full.columns:

@@ -111,7 +111,7 @@ def test_sag_times_on_the_averaged_circuit_agree_with_the_simulated_step(tmp_pat
     path.write_text(SAG_WINDOWS, encoding="utf-8")
     binding = CoDesign(load_spec(path))
     X = random_population(binding.variables, 40, seed=3)
-    _, G_screen, _ = binding.screen._score(X)
+    _, G_screen, _ = binding.screen.score(X)
     _, G_full = binding.evaluate_full(X)
     names = binding.constraint_names
     for name, window in (("sag.attack.max", 0.4), ("sag.recovery.max", 0.6)):

@@ -162,6 +162,30 @@ def test_integer_repair_rounds_only_integer_columns():
     np.testing.assert_array_equal(out[:, 1], [2.0, 0.0, 3.0])
 
 
+class CappedZdt1(Zdt1):
+    """ZDT1 with a repair that caps x0 at 0.5 and counts the designs it is given."""
+
+    def __init__(self):
+        super().__init__()
+        self.repaired = 0
+
+    def repair(self, X):
+        self.repaired += len(X)
+        X = X.copy()
+        X[:, 0] = np.minimum(X[:, 0], 0.5)
+        return X
+
+
+def test_the_definitions_repair_is_applied_once_to_each_design_evaluated():
+    toy = CappedZdt1()
+    res = search.run(toy, population=20, generations=10, seed=3)
+    assert np.all(res.X[:, 0] <= 0.5) and np.all(res.archive[:, 0] <= 0.5)
+    # what was evaluated is the repaired row the population holds ...
+    np.testing.assert_array_equal(Zdt1.evaluate(toy, res.X)[0], res.F)
+    # ... and each design once: not every batch mating tried while removing duplicates
+    assert toy.repaired == res.evaluations
+
+
 def test_same_seed_same_front_toy_and_workers():
     a = search.run(Zdt1(), population=20, generations=10, seed=7)
     b = search.run(Zdt1(), population=20, generations=10, seed=7, workers=2)

@@ -10,8 +10,10 @@ A *definition* is any object with
   line gives it,
 - optionally ``niche(X) -> labels (B,)``: rows with different labels never compete for
   survival (:class:`NicheSurvival`), so that each niche keeps its own front,
-- optionally ``repair(X) -> X``: applied to every design the search makes, after the integer
-  columns are rounded (:class:`IntegerRepair`),
+- optionally ``repair(X) -> X``: applied to every design the search evaluates, after the
+  integer columns are rounded (:class:`RepairingEvaluator`; mating only rounds them,
+  :class:`IntegerRepair`, since pymoo repairs every batch it tries while it removes duplicate
+  offspring, about three times the designs it keeps),
 - optionally ``recalibrate(X)``: called once, halfway through the run, with the population and
   the archive of the best designs found; the definition may then evaluate differently (e.g. a
   cheap model corrected against a full one on designs that matter), so the search re-evaluates
@@ -30,11 +32,13 @@ from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 
 import numpy as np
+from pymoo.core.evaluator import Evaluator
 from pymoo.core.problem import Problem
 from pymoo.core.repair import Repair
 from pymoo.operators.mutation.pm import PM
 
-__all__ = ["Variable", "NicheSurvival", "IntegerRepair", "IndexResetMutation", "VectorProblem", "SearchResult",
+__all__ = ["Variable", "NicheSurvival", "IntegerRepair", "RepairingEvaluator", "IndexResetMutation",
+           "VectorProblem", "SearchResult",
            "run", "non_dominated", "random_population", "knee"]
 
 
@@ -106,19 +110,32 @@ def non_dominated(F, feasible=None) -> np.ndarray:
 
 
 class IntegerRepair(Repair):
-    """Round the integer columns (and only those) to the nearest index inside their bounds,
-    then apply the definition's own ``repair`` where it has one (rounded again after it)."""
+    """Round the integer columns (and only those) to the nearest index inside their bounds."""
 
     def __init__(self, variables):
         super().__init__()
         self.lower, self.upper, self.integer, _, _ = _bounds(variables)
 
     def _do(self, problem, X, **kwargs):
-        X = _repair_matrix(X, self.lower, self.upper, self.integer)
-        own = getattr(getattr(problem, "definition", None), "repair", None)
-        if own is not None and len(X):
-            X = _repair_matrix(own(X), self.lower, self.upper, self.integer)
-        return X
+        return _repair_matrix(X, self.lower, self.upper, self.integer)
+
+
+class RepairingEvaluator(Evaluator):
+    """pymoo's evaluator, applying the definition's own ``repair`` (rounded again after it) to
+    the designs it is about to evaluate and writing the repaired rows back into them: each
+    design the search keeps is repaired once, not every batch mating tries."""
+
+    def __init__(self, variables, repair):
+        super().__init__()
+        self.lower, self.upper, self.integer, _, _ = _bounds(variables)
+        self.repair = repair
+
+    def _eval(self, problem, pop, evaluate_values_of, **kwargs):
+        X = pop.get("X")
+        if len(X):
+            pop.set("X", _repair_matrix(self.repair(np.asarray(X, float)), self.lower,
+                                        self.upper, self.integer))
+        super()._eval(problem, pop, evaluate_values_of, **kwargs)
 
 
 class IndexResetMutation(PM):
@@ -489,6 +506,7 @@ def run(definition, population=100, generations=100, seed=1, workers=1, progress
         problem = VectorProblem(definition, pool=pool, workers=workers,
                                 chunks=chunks or max(2, workers), archive_size=population)
         repair = IntegerRepair(problem.variables)
+        own_repair = getattr(definition, "repair", None)
         history = []
         if progress:
             from tqdm import tqdm
@@ -510,6 +528,8 @@ def run(definition, population=100, generations=100, seed=1, workers=1, progress
                 kwargs["sampling"] = repair._do(problem, np.asarray(initial, float))
             if hasattr(definition, "niche"):
                 kwargs["survival"] = NicheSurvival(definition.niche)
+            if own_repair is not None:
+                kwargs["evaluator"] = RepairingEvaluator(problem.variables, own_repair)
             algorithm = NSGA2(pop_size=population, repair=repair, eliminate_duplicates=True,
                               mutation=IndexResetMutation(problem.variables, eta=20),
                               return_least_infeasible=True, **kwargs)

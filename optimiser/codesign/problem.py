@@ -27,7 +27,7 @@ import numpy as np
 
 from optimiser.codesign.assembly import Assembly
 from optimiser.codesign.encoding import Encoding
-from optimiser.codesign import branches, objective_table
+from optimiser.codesign import branches, objective_table, winding
 from optimiser.codesign.encoding import RECTIFIER_COLUMN
 from optimiser.codesign.objectives import Objectives
 from optimiser.codesign.options import Options, rectifier_heater
@@ -118,17 +118,30 @@ class CoDesign:
 
     def repair(self, X):
         """Rows with the HV current rating raised to what the winding carries, by the screen
-        (:meth:`optimiser.codesign.screening.Screen.sized`); the search applies it to every
-        design it makes (:class:`optimiser.codesign.nsga.IntegerRepair`)."""
-        return self.screen.sized(X)
+        (:func:`optimiser.codesign.winding.sized`); the search applies it to every design it
+        evaluates (:class:`optimiser.codesign.nsga.RepairingEvaluator`)."""
+        return winding.sized(self.screen, X)
 
-    def recalibrate(self, X):
+    def thinnest(self, X):
+        """Rows with the HV winding in the thinnest wire that carries its current and the
+        secondary voltage raised to keep the B+ (:func:`optimiser.codesign.winding.thinnest`):
+        one of the local search's moves (:mod:`optimiser.codesign.refine`)."""
+        return winding.thinnest(self.screen, X)
+
+    def topped_up(self, X, G):
+        """Of screened rows, those short only of B+, with the secondary raised by the shortfall
+        (:func:`optimiser.codesign.winding.topped_up`): the local search's next step after a
+        move that cost a volt or two (:mod:`optimiser.codesign.refine`)."""
+        return winding.topped_up(self.screen, X, G)
+
+    def recalibrate(self, X, G_full=None):
         """Correct the screen's easing per branch on designs assessed in full
         (:meth:`optimiser.codesign.screening.Screen.recalibrate`): the search calls it halfway
         with what it holds (:func:`optimiser.codesign.nsga.run`), and :func:`optimise` again
-        before the local search."""
+        before the local search, giving the full assessment's constraints of the rows
+        (``G_full``) it has made anyway."""
         X = np.atleast_2d(np.asarray(X, float))
-        self.screen.recalibrate(X, self.evaluate_full(X)[1])
+        self.screen.recalibrate(X, self.evaluate_full(X)[1] if G_full is None else G_full)
 
     def evaluate(self, X):
         """Objectives and constraints of a population for the search: (F (B, n_obj), G (B, M)),

@@ -9,10 +9,17 @@ branch's designs are refined by Pareto local search [1]_: every design on the br
 set is moved one step in one variable at a time (one index up or down in every integer column:
 voltage step, core, current density, capacitor value, rating step, feed; the HV current rating
 by :data:`CURRENT_STEPS` alone and by :data:`PAIRED_STEPS` together with each of the other
-moves, since it trades the winding's resistance against its rating), the moves are screened
+moves, since it trades the winding's resistance against its rating), and, where the definition
+has ``thinnest``, wound in the thinnest wire that carries its current with the secondary volts
+that keep its B+ (:func:`optimiser.codesign.winding.thinnest`: one step at a time cannot make
+that move, since the thinner wire alone fails the B+); each node's capacitor is also moved
+one step together with its feed :data:`FILTER_STEPS` the other way (a smaller capacitor behind
+a larger resistor). The moves are screened
 (by the definition's ``evaluate``: the screen with its easing corrected per branch on the
-search's kept designs assessed in full, :meth:`optimiser.codesign.screening.Screen.recalibrate`),
-and the working set becomes the feasible non-dominated designs of the branch seen so far, or,
+search's kept designs assessed in full, :meth:`optimiser.codesign.screening.Screen.recalibrate`);
+those short only of B+ are screened again topped up, where the definition has ``topped_up``
+(:func:`optimiser.codesign.winding.topped_up`: the secondary raised by the shortfall), and the
+working set becomes the feasible non-dominated designs of the branch seen so far, or,
 while the branch has no feasible design yet, its :data:`NEAREST` designs of least constraint
 violation. Only designs new to the
 working set are moved in the next round, for at most :data:`ROUNDS` rounds.
@@ -22,10 +29,10 @@ core fits its windings only at a higher current density, and a design one step o
 fails the window fill or the temperature rise, so the path between two feasible corners leads
 through infeasible designs. Before the moves, therefore, each branch's :data:`SWEEP_STARTS`
 designs of least violation are swept over every core and every :data:`SWEEP_DENSITY`-th current
-density, each with its own HV current rating and with the least one, which the definition's
-repair raises to what the winding carries
-(:meth:`optimiser.codesign.screening.Screen.sized`): a rating above the need makes a larger
-wire that may not fit the smaller core. The designs the sweep finds join the working sets the
+density, each with its own HV current rating and wound thinnest (with the definition's
+``thinnest``; without it, with the least rating, which the definition's repair raises to what
+the winding carries, :func:`optimiser.codesign.winding.sized`): a rating above the need makes
+a larger wire that may not fit the smaller core. The designs the sweep finds join the working sets the
 moves start from.
 
 The moves do not depend on a random draw and the screen's result for a design does not depend
@@ -47,7 +54,7 @@ import numpy as np
 from optimiser.codesign import nsga
 
 __all__ = ["refine", "ROUNDS", "NEAREST", "KEEP", "MOVED", "CURRENT_STEPS", "PAIRED_STEPS",
-           "SWEEP_STARTS", "SWEEP_DENSITY"]
+           "FILTER_STEPS", "SWEEP_STARTS", "SWEEP_DENSITY"]
 
 #: Rounds of moves at most. [-]
 ROUNDS = 8
@@ -62,6 +69,9 @@ MOVED = 12
 #: those made together with each other move. [-]
 CURRENT_STEPS = (0.98, 0.99, 0.995, 1.005, 1.01, 1.02)
 PAIRED_STEPS = (0.99, 1.01)
+#: Steps of a node's feed index made together with one step of its capacitor index the other
+#: way (a smaller capacitor behind a larger resistor: the filter's time constant kept). [-]
+FILTER_STEPS = (1, 2, 3)
 #: Designs per branch the sweep starts from (those of least constraint violation). [-]
 SWEEP_STARTS = 2
 #: The sweep's step in the current density's index (every step from the lowest, and the
@@ -103,6 +113,15 @@ def _moves(X, variables, current_column):
 
     steps = steps + current(CURRENT_STEPS) + [a + b for a in steps
                                               for b in current(PAIRED_STEPS)]
+    names = [v.name for v in variables]
+    for c, name in enumerate(names):
+        if name.endswith(".feed") and name[:-5] + ".capacitance" in names:
+            k = names.index(name[:-5] + ".capacitance")
+            for s in (-1.0, 1.0):
+                for n in FILTER_STEPS:
+                    step = np.zeros(len(variables))
+                    step[k], step[c] = s, -s * n
+                    steps.append(step)
     out = (X[:, None, :] + np.array(steps)[None, :, :]).reshape(-1, len(variables))
     inside = np.all((out >= lower - 1e-12) & (out <= upper + 1e-12), axis=1)
     return out[inside]
@@ -115,8 +134,10 @@ def refine(definition, X, branch_of, current_column, rounds=ROUNDS, evaluate=Non
     Parameters
     ----------
     definition : object
-        ``variables``, ``evaluate(X) -> (F, G)`` and optionally ``repair(X) -> X`` (applied to
-        every design made here, as the search applies it).
+        ``variables``, ``evaluate(X) -> (F, G)``, optionally ``repair(X) -> X`` (applied to
+        every design made here, as the search applies it), ``thinnest(X) -> X`` (a move of
+        every design moved, and of every design of the sweep) and ``topped_up(X, G) -> X``
+        (of screened designs, those short only of B+ with the volts added: screened too).
     X : ndarray (B, d)
         Where to start: e.g. the search's final population and archive.
     branch_of : callable X -> labels (B,)
@@ -136,24 +157,37 @@ def refine(definition, X, branch_of, current_column, rounds=ROUNDS, evaluate=Non
     variables = list(definition.variables)
     evaluate = definition.evaluate if evaluate is None else evaluate
     repair = getattr(definition, "repair", None)
+    thinnest = getattr(definition, "thinnest", None)
+    topped_up = getattr(definition, "topped_up", None)
     X = np.unique(np.asarray(X, float), axis=0)
     F, G = (np.asarray(a, float) for a in evaluate(X))
     labels = np.asarray(branch_of(X))
     seen = {row.tobytes() for row in X}
     working = {k: _working(np.flatnonzero(labels == k), F, G) for k in np.unique(labels)}
 
-    def add(new):
-        """Screen the designs of ``new`` (repaired) not seen yet and take them into each
-        branch's working set: {branch: its working designs among them}, {} if none was new."""
-        nonlocal X, F, G, labels
+    def screened(new):
+        """The designs of ``new`` (repaired) not seen yet, screened: (rows, F, G)."""
         if len(new) and repair is not None:
             new = repair(new)
         new = np.unique(new, axis=0) if len(new) else new
         new = new[np.asarray([row.tobytes() not in seen for row in new], bool)] if len(new) else new
         if not len(new):
-            return {}
+            return new, None, None
         seen.update(row.tobytes() for row in new)
-        f, g = evaluate(new)
+        return (new, *evaluate(new))
+
+    def add(new):
+        """Screen the designs of ``new`` not seen yet (and of those short only of B+, the same
+        topped up, with the definition's ``topped_up``) and take them into each branch's
+        working set: {branch: its working designs among them}, {} if none was new."""
+        nonlocal X, F, G, labels
+        new, f, g = screened(new)
+        if not len(new):
+            return {}
+        if topped_up is not None:
+            more, f2, g2 = screened(topped_up(new, g))
+            if len(more):
+                new, f, g = np.vstack([new, more]), np.vstack([f, f2]), np.vstack([g, g2])
         base = len(X)
         X, F, G = np.vstack([X, new]), np.vstack([F, f]), np.vstack([G, g])
         labels = np.concatenate([labels, np.asarray(branch_of(new))])
@@ -165,13 +199,17 @@ def refine(definition, X, branch_of, current_column, rounds=ROUNDS, evaluate=Non
         return fresh
 
     starts = np.concatenate([_starts(rows, F, G) for rows in working.values()] or [[]])
-    add(_sweep(X[starts], variables, current_column))
+    add(_sweep(X[starts.astype(int)], variables, current_column, thinnest))
     fresh = dict(working)
     for _ in range(rounds):
         starts = np.concatenate([_spread(rows, F, MOVED) for rows in fresh.values()])
         if not len(starts):
             break
-        fresh = add(_moves(X[starts.astype(int)], variables, current_column))
+        moved = X[starts.astype(int)]
+        moves = _moves(moved, variables, current_column)
+        if thinnest is not None:
+            moves = np.vstack([moves, thinnest(moved)])
+        fresh = add(moves)
         if not fresh:
             break
     keep = np.concatenate([rows for rows in working.values()]) if working else []
@@ -186,10 +224,10 @@ def _starts(rows, F, G):
     return rows[order[:SWEEP_STARTS]]
 
 
-def _sweep(X, variables, current_column):
+def _sweep(X, variables, current_column, thinnest=None):
     """Each row of X at every core and every :data:`SWEEP_DENSITY`-th current density (and the
     highest), each with its own HV current rating and with the least (which ``repair`` sizes
-    up to what the winding carries). (K, d)"""
+    up to what the winding carries), or with ``thinnest`` applied where given. (K, d)"""
     names = [v.name for v in variables]
     c, d = names.index("core_stack"), names.index("current_density")
     cores = np.arange(variables[c].lower, variables[c].upper + 1)
@@ -199,6 +237,8 @@ def _sweep(X, variables, current_column):
     out = np.repeat(X, len(grid), axis=0)
     out[:, c] = np.tile(grid[:, 0], len(X))
     out[:, d] = np.tile(grid[:, 1], len(X))
+    if thinnest is not None:
+        return np.vstack([out, thinnest(out)])
     least = out.copy()
     least[:, current_column] = variables[current_column].lower
     return np.vstack([out, least])

@@ -140,10 +140,15 @@ def optimise(spec: Spec, *, population=None, generations=None, seed=None, worker
     # what it kept is corrected on once more, each branch refined by local moves on the screen
     # (codesign.refine), and all of it assessed in full: only that counts
     kept = np.unique(np.vstack([result.X, result.archive]), axis=0)
-    binding.recalibrate(kept)
-    kept = np.vstack([kept, refine.refine(binding, kept, binding.niche, CURRENT_COLUMN)])
-    candidates = list(dict.fromkeys(binding.decode(kept)))
+    decoded = binding.decode(kept)
+    candidates = list(dict.fromkeys(decoded))
     scored = binding.score(binding.designs(candidates))
+    place = {c: i for i, c in enumerate(candidates)}
+    binding.recalibrate(kept, scored.G[[place[c] for c in decoded]])
+    refined = binding.decode(refine.refine(binding, kept, binding.niche, CURRENT_COLUMN))
+    new = [c for c in dict.fromkeys(refined) if c not in place]
+    if new:
+        scored = scored.join(binding.score(binding.designs(new)))
 
     def front_of(F, mask):
         return reported_front(F, mask, spec.search.resolution, binding.objective_names)

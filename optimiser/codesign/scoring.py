@@ -58,6 +58,21 @@ class Scored:
     def feasible(self) -> np.ndarray:
         return np.all(self.G <= 0.0, axis=1)
 
+    def join(self, other: "Scored") -> "Scored":
+        """These designs followed by ``other``'s (scored by the same spec), as one."""
+        from optimiser.assessment.full import AssessmentTable
+
+        def frames(a, b):
+            return pd.concat([a, b], ignore_index=True)
+
+        t, u = self.table, other.table
+        return Scored(designs=list(self.designs) + list(other.designs),
+                      frame=frames(self.frame, other.frame), F=np.vstack([self.F, other.F]),
+                      G=np.vstack([self.G, other.G]),
+                      table=AssessmentTable(frame=frames(t.frame, u.frame),
+                                            ratios=frames(t.ratios, u.ratios),
+                                            assessments=list(t.assessments) + list(u.assessments)))
+
 
 def check_names(options: Options, encoding: Encoding, assembly: Assembly) -> tuple:
     """Names of every assessment check any allowed design can have, from a probe: for each

@@ -38,7 +38,6 @@ import numpy as np
 
 from optimiser.assessment import checks as check_table
 from optimiser.codesign import branches, screen_figures
-from optimiser.codesign.encoding import CURRENT_COLUMN
 from optimiser.codesign.screen_parts import PartTables, RectifierOptions, TransformerCache
 
 __all__ = ["Screen"]
@@ -57,10 +56,6 @@ CALIBRATION_MINIMUM = 8
 BRANCH_NEAR = 0.25
 #: Least number of a branch's designs near a limit for its correction to be measured.
 BRANCH_MINIMUM = 4
-#: Rounds of :meth:`Screen.sized` (the HV current rating raised to what the winding carries).
-SIZING_ROUNDS = 3
-#: Margin of :meth:`Screen.sized` over the current the screen finds. [-]
-SIZING_MARGIN = 0.002
 
 
 def _excess(G_screen, G_full, rows, near, minimum):
@@ -108,9 +103,10 @@ class Screen:
         #: per branch (rows: :func:`optimiser.codesign.branches.branches_of`), a correction to
         #: the easing measured on designs the search kept (:meth:`recalibrate`); zero until then
         self.branch_slack = np.zeros((len(branches.branches_of(s)), len(self.slack)))
-        #: (F, G) rows :meth:`sized` screened and left as they were, by the row's bytes, for the
-        #: next :meth:`evaluate` (a design's screen figures do not depend on its batch), so the
-        #: search does not screen a design twice; emptied by each :meth:`evaluate`
+        #: (F, G) of rows screened just before they are evaluated (:meth:`remember`: the
+        #: winding's sizing, :mod:`optimiser.codesign.winding`), by the row's bytes (a design's
+        #: screen figures do not depend on its batch), so the search does not screen a design
+        #: twice; emptied by each :meth:`evaluate`
         self._sized_scores = {}
 
     def _calibrate(self):
@@ -121,7 +117,7 @@ class Screen:
         from optimiser.codesign.nsga import random_population
 
         X = random_population(self.b.variables, CALIBRATION_SAMPLE, seed=0)
-        G_screen = self._score(X)[1]
+        G_screen = self.score(X)[1]
         G_full = self.b.evaluate_full(X)[1]
         excess = _excess(G_screen, G_full, np.ones(len(X), bool), 1.0, CALIBRATION_MINIMUM)
         return np.where(np.isnan(excess), 0.0, np.maximum(excess, 0.0))
@@ -130,18 +126,18 @@ class Screen:
         """(F (B, n_obj), G (B, M)) of a population matrix: the objectives and constraints of the
         full assessment, estimated, each constraint eased by the error measured when the screen
         was made (:meth:`_calibrate`) and by its branch's correction (:meth:`recalibrate`).
-        Designs :meth:`sized` has just screened are not screened again."""
+        Designs screened just before (:meth:`remember`) are not screened again."""
         X = np.atleast_2d(np.asarray(X, float))
         known, self._sized_scores = self._sized_scores, {}
         hits = [known.get(row.tobytes()) for row in X]
         missing = np.flatnonzero([hit is None for hit in hits])
         if len(missing) == len(X):
-            F, G, _ = self._score(X)
+            F, G, _ = self.score(X)
         else:
             F = np.empty((len(X), len(self.b.objective_names)))
             G = np.empty((len(X), len(self.slack)))
             if len(missing):
-                F[missing], G[missing], _ = self._score(X[missing])
+                F[missing], G[missing], _ = self.score(X[missing])
             for r, hit in enumerate(hits):
                 if hit is not None:
                     F[r], G[r] = hit
@@ -162,44 +158,27 @@ class Screen:
             The full assessment's constraints of the same rows.
         """
         X = np.atleast_2d(np.asarray(X, float))
-        G_screen = self._score(X)[1]
+        G_screen = self.score(X)[1]
         niche = self.b.niche(X)
         excess = np.array([_excess(G_screen, G_full, niche == b, BRANCH_NEAR, BRANCH_MINIMUM)
                            for b in range(len(self.branch_slack))])
         self.branch_slack = np.where(np.isnan(excess), 0.0, excess - self.slack)
 
-    def sized(self, X, rounds=SIZING_ROUNDS):
-        """X with each design's HV current rating raised, where the screen finds the winding
-        carrying more than its rating at high mains and full power, to what it carries (times
-        1 + :data:`SIZING_MARGIN`): a winder sizes the wire for the current it will carry, and a
-        design below that fails ``transformer.hv_rms_current`` whatever else it gets right.
-        A rating above the need is left alone (a larger wire is a real choice: less resistance,
-        less sag). The current depends on the winding's resistance and so on the rating, so
-        the raise is repeated ``rounds`` times on the designs still short (it converges: a
-        larger wire raises the current far less than in proportion). [rows of the encoding]"""
-        X = np.array(np.atleast_2d(X), float, copy=True)
-        upper = self.b.variables[CURRENT_COLUMN].upper
-        rows = np.arange(len(X))
-        for _ in range(rounds):
-            if not len(rows):
-                break
-            F, G, ratios = self._score(X[rows])
-            ratio = _nanmax(np.column_stack(
-                [v for name, v in ratios.items() if name.endswith("transformer.hv_rms_current")]
-                or [np.full(len(rows), np.nan)]), axis=1)
-            short = np.isfinite(ratio) & (ratio > 1.0)
-            for i in np.flatnonzero(~short):
-                self._sized_scores[X[rows[i]].tobytes()] = (F[i], G[i])
-            rows = rows[short]
-            X[rows, CURRENT_COLUMN] = np.minimum(
-                X[rows, CURRENT_COLUMN] + np.log10(ratio[short] * (1 + SIZING_MARGIN)), upper)
-        return X
+    def remember(self, X, F, G):
+        """Keep rows' screen figures (F, G uneased, as :meth:`score` gives them) for the next
+        :meth:`evaluate`, which then does not screen them again."""
+        for row, f, g in zip(np.atleast_2d(X), F, G):
+            self._sized_scores[row.tobytes()] = (f, g)
+
+    def forget(self):
+        """Drop the figures :meth:`remember` kept."""
+        self._sized_scores = {}
 
     def check_ratio_names(self, X):
         """Names of the check ratios the screen computes for a population."""
-        return list(self._score(X)[2])
+        return list(self.score(X)[2])
 
-    def _score(self, X):
+    def score(self, X):
         """(F, G uneased, check ratios per design by name) of a population matrix."""
         b, s, pt, ro = self.b, self.spec, self.parts, self.rectifiers
         choice = b.choices(X)
