@@ -135,11 +135,11 @@ def measure(path, reference_seeds, scale_population, scale_generations, save=Non
     for key in dict.fromkeys(keys.tolist()):
         ref = _non_dominated(F[keys == key])
         branch_ref[key] = (ref, *_bounds(ref, LEAST_SPAN * span))
-    print(f"\n## {spec.name} ({', '.join(runs[1][0].binding.objective_names)})")
+    names = runs[1][0].binding.objective_names
+    print(f"\n## {spec.name} ({', '.join(names)})")
     print(f"reference: {len(reference)} designs on the front of {len(F)} feasible pooled from "
           f"{len(SEEDS)} default runs and {made} ({build:.0f} s)")
     hv_ref = _hv(reference, ideal, nadir)
-    names = runs[1][0].binding.objective_names
     thinned = F[reported_front(F, np.ones(len(F), bool), s.resolution, names)]
     hv_thin = _hv(thinned, ideal, nadir)
     print(f"reference at resolution: {len(thinned)} designs, {hv_thin / hv_ref:.4f} of the "

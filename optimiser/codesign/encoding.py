@@ -30,8 +30,10 @@ from optimiser.codesign.nsga import Variable
 from optimiser.codesign.options import RATING_CHOICES, Options
 from optimiser.formats.units import round_significant
 
-__all__ = ["RECTIFIER_COLUMN", "CURRENT_COLUMN", "Candidate", "Encoding"]
+__all__ = ["VOLTAGE_COLUMN", "RECTIFIER_COLUMN", "CURRENT_COLUMN", "Candidate", "Encoding"]
 
+#: Column of the HV secondary voltage (index into the voltage grid).
+VOLTAGE_COLUMN = 0
 #: Column of the rectifier option (the columns before it are the transformer's).
 RECTIFIER_COLUMN = 4
 #: Column of the HV current rating (log10 [A]).

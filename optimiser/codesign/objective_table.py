@@ -26,7 +26,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["Objective", "OBJECTIVES", "FIGURE_HEADERS", "names_for", "search_values",
+__all__ = ["Objective", "OBJECTIVES", "FIGURE_HEADERS", "names_for", "search_values", "row_worst",
            "resolution_steps", "csv_frame", "from_csv_frame", "shown", "FAILED"]
 
 #: Search value of an objective whose figure could not be computed (counts as very bad).
@@ -128,10 +128,10 @@ def figures_of(spec, cost, drop, stress, life):
     drop = np.atleast_2d(np.asarray(drop, float))
     if drop.shape[0] != len(np.atleast_1d(cost)):
         drop = drop.T
-    out = {"cost": np.asarray(cost, float), "regulation": _worst(drop),
+    out = {"cost": np.asarray(cost, float), "regulation": row_worst(drop),
            "rectifier_stress": np.asarray(stress, float), "life": np.asarray(life, float)}
     if spec.sag is not None:
-        out["sag_error"] = _worst(np.abs(drop - spec.sag.target))
+        out["sag_error"] = row_worst(np.abs(drop - spec.sag.target))
     else:
         out["sag_error"] = np.full(len(out["cost"]), np.nan)
     return out
@@ -147,10 +147,14 @@ def resolution_steps(names, resolution) -> np.ndarray:
     return np.array([float(getattr(resolution, n)) for n in names])
 
 
-def _worst(values):
+def row_worst(values):
+    """The largest value of each row of a (B, k) array, ignoring NaN (NaN where a row is all
+    NaN, or has no columns). (B,)"""
+    values = np.asarray(values, float)
+    if values.shape[1] == 0:
+        return np.full(len(values), np.nan)
     with np.errstate(all="ignore"):
-        return np.where(np.isnan(values).all(axis=1), np.nan,
-                        np.nanmax(np.where(np.isnan(values), -np.inf, values), axis=1))
+        return np.fmax.reduce(values, axis=1)
 
 
 def csv_frame(frame):

@@ -92,13 +92,6 @@ class Unmet:
         return self.constraint.miss(self.best)
 
 
-def _worst(values):
-    """The largest value of each row, ignoring NaN (NaN where a row is all NaN). (B,)"""
-    with np.errstate(all="ignore"):
-        return np.where(np.isnan(values).all(axis=1), np.nan,
-                        np.nanmax(np.where(np.isnan(values), -np.inf, values), axis=1))
-
-
 class Objectives:
     """The objectives and constraints of one spec (see module docstring).
 
@@ -193,7 +186,7 @@ class Objectives:
         """
         s = self.spec
         count = len(buildable)
-        worst = _worst
+        worst = objective_table.row_worst
         g = []
         for ns in s.nodes:
             v = figures[f"{ns.name}.idle_voltage" if ns.at == "idle"

@@ -32,8 +32,8 @@ designs of least violation are swept over every core and every :data:`SWEEP_DENS
 density, each with its own HV current rating and wound thinnest (with the definition's
 ``thinnest``; without it, with the least rating, which the definition's repair raises to what
 the winding carries, :func:`optimiser.codesign.winding.sized`): a rating above the need makes
-a larger wire that may not fit the smaller core. The designs the sweep finds join the working sets the
-moves start from.
+a larger wire that may not fit the smaller core. The designs the sweep finds join the working
+sets the moves start from.
 
 The moves do not depend on a random draw and the screen's result for a design does not depend
 on its batch, so the refinement is as reproducible as the search. What it keeps is re-checked

@@ -37,7 +37,7 @@ from __future__ import annotations
 import numpy as np
 
 from optimiser.assessment import checks as check_table
-from optimiser.codesign import branches, screen_figures
+from optimiser.codesign import branches, objective_table, screen_figures
 from optimiser.codesign.screen_parts import PartTables, RectifierOptions, TransformerCache
 
 __all__ = ["Screen"]
@@ -72,12 +72,6 @@ def _excess(G_screen, G_full, rows, near, minimum):
     return out
 
 
-def _nanmax(stack, axis):
-    with np.errstate(all="ignore"):
-        return np.where(np.isnan(stack).all(axis=axis), np.nan,
-                        np.nanmax(np.where(np.isnan(stack), -np.inf, stack), axis=axis))
-
-
 class Screen:
     """Objectives and constraints of whole populations, for the search (see module docstring).
 
@@ -107,7 +101,7 @@ class Screen:
         #: winding's sizing, :mod:`optimiser.codesign.winding`), by the row's bytes (a design's
         #: screen figures do not depend on its batch), so the search does not screen a design
         #: twice; emptied by each :meth:`evaluate`
-        self._sized_scores = {}
+        self._remembered = {}
 
     def _calibrate(self):
         """How much to ease each constraint: on a random sample assessed both ways, the
@@ -128,7 +122,7 @@ class Screen:
         was made (:meth:`_calibrate`) and by its branch's correction (:meth:`recalibrate`).
         Designs screened just before (:meth:`remember`) are not screened again."""
         X = np.atleast_2d(np.asarray(X, float))
-        known, self._sized_scores = self._sized_scores, {}
+        known, self._remembered = self._remembered, {}
         hits = [known.get(row.tobytes()) for row in X]
         missing = np.flatnonzero([hit is None for hit in hits])
         if len(missing) == len(X):
@@ -168,11 +162,11 @@ class Screen:
         """Keep rows' screen figures (F, G uneased, as :meth:`score` gives them) for the next
         :meth:`evaluate`, which then does not screen them again."""
         for row, f, g in zip(np.atleast_2d(X), F, G):
-            self._sized_scores[row.tobytes()] = (f, g)
+            self._remembered[row.tobytes()] = (f, g)
 
     def forget(self):
         """Drop the figures :meth:`remember` kept."""
-        self._sized_scores = {}
+        self._remembered = {}
 
     def check_ratio_names(self, X):
         """Names of the check ratios the screen computes for a population."""
@@ -215,8 +209,8 @@ class Screen:
         # per design: worst over positions; a position the screen could not solve fails
         by_design = {name: _per_design(np.where(failed, np.nan, values), owner, count)
                      for name, (values, _) in ratios.items()}
-        stress = _nanmax(np.column_stack([by_design[name] for name, (_, r) in ratios.items()
-                                          if r] or [np.full(count, np.nan)]), axis=1)
+        stress = objective_table.row_worst(np.column_stack(
+            [by_design[name] for name, (_, r) in ratios.items() if r] or [np.full(count, np.nan)]))
 
         figures = {}
         for k, ns in enumerate(s.nodes):

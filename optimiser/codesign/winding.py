@@ -1,5 +1,5 @@
-"""The HV winding sized as a winder sizes it, on the search's screen: two moves on rows of the
-encoding.
+"""The HV winding sized as a winder sizes it, on the search's screen: a repair and two moves on
+rows of the encoding.
 
 - :func:`sized` raises each design's HV current rating to what the winding carries at high
   mains and full power. A winder sizes the wire for the current it will carry, and a design
@@ -11,7 +11,7 @@ encoding.
 - :func:`topped_up` adds those volts to designs a move left short only of B+: the local
   search's next step after such a move.
 
-Both read the screen's figures (:meth:`optimiser.codesign.screening.Screen.score`) and leave
+All three read the screen's figures (:meth:`optimiser.codesign.screening.Screen.score`) and leave
 those of the rows they return with it (:meth:`~optimiser.codesign.screening.Screen.remember`),
 so the evaluation that follows does not screen them again.
 """
@@ -20,25 +20,15 @@ from __future__ import annotations
 
 import numpy as np
 
-from optimiser.codesign.encoding import CURRENT_COLUMN
+from optimiser.codesign.encoding import CURRENT_COLUMN, VOLTAGE_COLUMN
+from optimiser.codesign.objective_table import row_worst
 
 __all__ = ["sized", "thinnest", "topped_up", "SIZING_ROUNDS", "SIZING_MARGIN"]
 
-#: Rounds of :func:`sized` and of :func:`thinnest`'s voltage raise. [-]
+#: Rounds of :func:`sized` and of the voltage raise of :func:`thinnest` and :func:`topped_up`. [-]
 SIZING_ROUNDS = 3
 #: Margin of :func:`sized` over the current the screen finds. [-]
 SIZING_MARGIN = 0.002
-#: Column of the secondary voltage (index into the voltage grid).
-VOLTAGE_COLUMN = 0
-
-
-def _row_max(columns, count):
-    """Largest finite value of each row over ``columns`` (NaN where none). (B,)"""
-    if not columns:
-        return np.full(count, np.nan)
-    stack = np.column_stack(columns)
-    with np.errstate(all="ignore"):
-        return np.fmax.reduce(stack, axis=1)
 
 
 def sized(screen, X, rounds=SIZING_ROUNDS):
@@ -62,8 +52,9 @@ def sized(screen, X, rounds=SIZING_ROUNDS):
         if not len(rows):
             break
         F, G, ratios = screen.score(X[rows])
-        ratio = _row_max([v for name, v in ratios.items()
-                          if name.endswith("transformer.hv_rms_current")], len(rows))
+        ratio = row_worst(np.column_stack(
+            [v for name, v in ratios.items() if name.endswith("transformer.hv_rms_current")]
+            or [np.full(len(rows), np.nan)]))
         short = np.isfinite(ratio) & (ratio > 1.0)
         screen.remember(X[rows[~short]], F[~short], G[~short])
         rows = rows[short]
@@ -126,7 +117,9 @@ def _lifted(screen, X, G, rounds):
     rating sized again, judged again and repeated, ``rounds`` times at most."""
     X = np.array(X, float, copy=True)
     rows = np.arange(len(X))
-    for _ in range(rounds):
+    for round_ in range(rounds):
+        if round_:
+            G = screen.evaluate(X[rows])[1]
         voltage = _raised(screen, X[rows], G)
         short = voltage > X[rows, VOLTAGE_COLUMN]
         rows = rows[short]
@@ -134,7 +127,6 @@ def _lifted(screen, X, G, rounds):
             break
         X[rows, VOLTAGE_COLUMN] = voltage[short]
         X[rows] = sized(screen, X[rows], rounds)
-        G = screen.evaluate(X[rows])[1]
     return X
 
 
@@ -158,6 +150,6 @@ def _raised(screen, X, G):
     secondary = grid[np.clip(index.astype(int), 0, len(grid) - 1)]
     with np.errstate(all="ignore"):
         per_volt = (limits - shortfall) / secondary[:, None]  # node DC per secondary volt
-        needed = _row_max(list(np.where(shortfall > 0, shortfall / per_volt, np.nan).T), len(X))
+        needed = row_worst(np.where(shortfall > 0, shortfall / per_volt, np.nan))
     steps = np.where(np.isfinite(needed) & (needed > 0), np.ceil(needed / (grid[1] - grid[0])), 0)
     return np.minimum(index + steps, len(grid) - 1)
